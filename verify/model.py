@@ -478,6 +478,8 @@ class CarbonClass:
         partner class that may coincide with this one.
     label : str
         Display name, e.g. ``"C5"`` or ``"C2/C6"`` (1-based atom numbers).
+    prediction_sd : float or None
+        Expected error (one standard deviation, ppm) of ``predicted_ppm``.
     """
 
     atoms: tuple[int, ...]
@@ -490,6 +492,7 @@ class CarbonClass:
     couplings: tuple[Coupling, ...] = ()
     partner: int | None = None
     label: str = ""
+    prediction_sd: float | None = None
 
     def __post_init__(self) -> None:
         if not self.atoms:
