@@ -22,6 +22,7 @@ __all__ = [
     "SampleError",
     "SpectrumFormatError",
     "StructureError",
+    "ToolMissingError",
     "UsageError",
 ]
 
@@ -81,6 +82,10 @@ class StructureError(CtallyError, ValueError):
 
 class ProcessingError(CtallyError, RuntimeError):
     """A spectrum could not be processed (e.g. no signal, no usable reference)."""
+
+
+class ToolMissingError(CtallyError, RuntimeError):
+    """A program the tool calls out to (e.g. Chromium for PDF output) is missing or failed."""
 
 
 class CtallyWarning(UserWarning):
