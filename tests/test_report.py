@@ -438,3 +438,22 @@ def test_reports_of_shared_samples_label_the_solvent(spectra_dir: Path) -> None:
         # CDCl3 centre line, Fulmer et al., Organometallics 2010, 29, 2176
         assert any(abs(float(m.attrs["data-ppm"] or 0) - 77.16) < 0.3 for m in solvent)
         assert doc.by_id("verdict").attrs["data-verdict"] == result.verdict.verdict
+
+
+def test_crowded_region_gets_an_expansion() -> None:
+    from verify.draw import crowded_windows
+
+    dense = [Mark(ppm=20.0 + 1.1 * i, text=f"C{i + 1} CH2", short=f"C{i + 1}") for i in range(18)]
+    sparse = [Mark(ppm=150.0, text="C30 C"), Mark(ppm=120.0, text="C31 CH")]
+    windows = crowded_windows(dense + sparse, 10.0, 160.0)
+    assert len(windows) == 1
+    lo, hi = windows[0]
+    assert lo <= 20.0 and hi >= 20.0 + 1.1 * 17 and hi - lo < 30
+    assert crowded_windows(sparse, 10.0, 160.0) == []
+    # the overview uses the short labels inside the expanded region, full ones outside
+    v = make_verdict()
+    spec = v.observation.peaksets["carbon"].spectrum
+    assert spec is not None
+    svg = parse(spectrum_stack_svg([("carbon", spec)], dense + sparse, compact=windows))
+    texts = {n.text for n in svg.find_all("text")}
+    assert "C1" in texts and "C1 CH2" not in texts and "C31 CH" in texts

@@ -43,7 +43,9 @@ __all__ = [
     "glyph_svg",
     "minmax_downsample",
     "nice_step",
+    "crowded_windows",
     "spectrum_stack_svg",
+    "stack_window",
     "structure_svg",
 ]
 
@@ -99,6 +101,8 @@ class Mark:
         One of :data:`MARK_STATUSES`; decides glyph shape and colour.
     detail : str
         Longer description shown as a tooltip.
+    short : str
+        Shorter label used where an expansion repeats the region (empty: `text`).
 
     """
 
@@ -106,6 +110,7 @@ class Mark:
     text: str
     status: str = "agree"
     detail: str = ""
+    short: str = ""
 
     def __post_init__(self) -> None:
         if self.status not in MARK_STATUSES:
@@ -244,6 +249,59 @@ def _text_px(text: str, size: float) -> float:
     return 0.58 * size * len(text) + 2.0
 
 
+def crowded_windows(
+    marks: Sequence[Mark],
+    lo: float,
+    hi: float,
+    *,
+    width: int = 1000,
+    max_lanes: int = 4,
+    gap_ppm: float = 6.0,
+    min_marks: int = 5,
+) -> list[tuple[float, float]]:
+    """Regions (lo, hi) in ppm whose labels crowd the full view and deserve an expansion.
+
+    Nothing is returned while the labels of the whole window fit in `max_lanes`
+    rows.  Otherwise the marks are split where neighbours lie more than `gap_ppm`
+    apart, and each group of at least `min_marks` that spans less than 60 % of the
+    window becomes an expansion (1 ppm margin, at most two, most crowded first).
+    """
+    inside = sorted(m.ppm for m in marks if lo <= m.ppm <= hi)
+    if not inside or _lane_count(marks, lo, hi, width) <= max_lanes:
+        return []
+    groups: list[list[float]] = [[inside[0]]]
+    for p in inside[1:]:
+        if p - groups[-1][-1] > gap_ppm:
+            groups.append([])
+        groups[-1].append(p)
+    out = []
+    for g in sorted(groups, key=len, reverse=True):
+        a = max(lo, math.floor(g[0] - 1.0))
+        b = min(hi, math.ceil(g[-1] + 1.0))
+        if len(g) >= min_marks and b - a < 0.6 * (hi - lo):
+            out.append((a, b))
+    return out[:2]
+
+
+def _lane_count(marks: Sequence[Mark], lo: float, hi: float, width: int) -> int:
+    left, right = 104.0, 14.0
+    plot_w = width - left - right
+    spans = []
+    for m in marks:
+        if lo <= m.ppm <= hi:
+            x = left + (hi - m.ppm) / (hi - lo) * plot_w
+            w = _text_px(m.text, 11.0) + 12.0
+            x0 = min(max(x - w / 2, left), width - right - w)
+            spans.append((x0, x0 + w))
+    lanes = _lanes(spans)
+    return max(lanes) + 1 if lanes else 0
+
+
+def stack_window(spectra: Sequence[Spectrum], marks: Sequence[Mark]) -> tuple[float, float]:
+    """Default ppm window of a stack: the marks' span ± 8 ppm, rounded to 10, within the data."""
+    return _window(spectra, marks)
+
+
 def _window(spectra: Sequence[Spectrum], marks: Sequence[Mark]) -> tuple[float, float]:
     data_lo = min(float(np.min(s.ppm)) for s in spectra)
     data_hi = max(float(np.max(s.ppm)) for s in spectra)
@@ -293,6 +351,8 @@ def spectrum_stack_svg(
     notes: dict[str, str] | None = None,
     width: int = 1000,
     ppm_range: tuple[float, float] | None = None,
+    compact: Sequence[tuple[float, float]] = (),
+    title: str = "",
 ) -> str:
     """Draw several spectra stacked on one shared, descending ppm axis.
 
@@ -311,6 +371,11 @@ def spectrum_stack_svg(
     ppm_range : (lo, hi), optional
         Window in ppm; by default the span of the marks with a margin, rounded to
         10 ppm, within the data.
+    compact : sequence of (lo, hi)
+        Regions (ppm) shown again in an expansion: marks there that agree use
+        their short label.
+    title : str
+        Heading written above the labels (e.g. "Expansion 58–10 ppm").
 
     Returns
     -------
@@ -332,7 +397,13 @@ def spectrum_stack_svg(
 
     # label lanes above the top panel
     size = 11.0
-    shown = [m for m in marks if lo <= m.ppm <= hi]
+    shown = [
+        Mark(m.ppm, m.short, m.status, m.detail)
+        if m.short and m.status == "agree" and any(a <= m.ppm <= b for a, b in compact)
+        else m
+        for m in marks
+        if lo <= m.ppm <= hi
+    ]
     spans = []
     for m in shown:
         w = _text_px(m.text, size) + 12.0  # glyph + gap
@@ -341,7 +412,8 @@ def spectrum_stack_svg(
     lanes = _lanes(spans)
     n_lanes = (max(lanes) + 1) if lanes else 0
     lane_h = 15.0
-    top = 8.0 + n_lanes * lane_h + 14.0
+    head = 18.0 if title else 0.0
+    top = head + 8.0 + n_lanes * lane_h + 14.0
     heights = [150.0 if role == "carbon" else 92.0 for role, _ in traces]
     gap = 10.0
     y0s = []
@@ -364,6 +436,12 @@ def spectrum_stack_svg(
             f'width="{plot_w:.1f}" height="{h:.1f}"/></clipPath>'
         )
     out.append("</defs>")
+
+    if title:
+        out.append(
+            f'<text x="{left:.1f}" y="13" font-size="12" font-weight="700" '
+            f'fill="{PALETTE["ink"]}">{escape(title)}</text>'
+        )
 
     # guide lines through all panels
     bottom = y0s[-1] + heights[-1]
@@ -424,7 +502,7 @@ def spectrum_stack_svg(
 
     # labels
     for m, lane, (x0, _x1) in zip(shown, lanes, spans, strict=True):
-        ly = 8.0 + (n_lanes - 1 - lane) * lane_h + 10.0
+        ly = head + 8.0 + (n_lanes - 1 - lane) * lane_h + 10.0
         x = px(m.ppm)
         colour = PALETTE[m.status]
         weight = ' font-weight="700"' if m.status in ("mismatch", "unassigned") else ""
@@ -537,6 +615,10 @@ def structure_svg(
         rdDepictor.Compute2DCoords(mol)
     marked = sorted({i for i in marked if 0 <= i < mol.GetNumAtoms()})
     w, h = size
+    pos = mol.GetConformer().GetPositions()
+    if len(pos) > 1:  # fit the canvas to the drawing's aspect, within 0.45–1.1 of the width
+        dx, dy = np.ptp(pos[:, 0]) + 1.5, np.ptp(pos[:, 1]) + 1.5
+        h = int(min(max(w * dy / dx, 0.45 * w), 1.1 * w, h))
     drawer = rdMolDraw2D.MolDraw2DSVG(w, h)
     opts: Any = drawer.drawOptions()
     opts.annotationFontScale = 0.62

@@ -45,7 +45,15 @@ import jinja2
 from markupsafe import Markup
 
 from verify import __version__
-from verify.draw import MARK_STATUSES, PANEL_ORDER, Mark, glyph_svg, spectrum_stack_svg
+from verify.draw import (
+    MARK_STATUSES,
+    PANEL_ORDER,
+    Mark,
+    crowded_windows,
+    glyph_svg,
+    spectrum_stack_svg,
+    stack_window,
+)
 from verify.draw import structure_svg as _structure_svg
 from verify.errors import InputFileError, ToolMissingError
 from verify.model import MULTIPLICITIES, Sample, Signal, Spectrum, Verdict
@@ -308,19 +316,20 @@ def _signal_views(verdict: Verdict) -> list[_SignalView]:
 def _mark_for(v: _SignalView) -> Mark:
     s = v.signal
     call = s.multiplicity or "?"
+    short = ""
     if v.status in ("solvent", "impurity", "artifact"):
-        text = f"{v.name} ({v.status})" if v.status != "artifact" else v.name
-    elif v.status == "unassigned":
-        text = f"unassigned {call}"
+        text = v.name if v.name == v.status else f"{v.name} ({v.status})"
+    elif not v.atoms:
+        text = f"{call} unexplained" if v.status == "mismatch" else f"{call} unassigned"
     else:
-        text = f"{v.atoms} {call}"
+        text, short = f"{v.atoms} {call}", v.atoms
         if v.status == "mismatch":
             text += " mismatch"
     detail = (
         f"{s.ppm:.2f} ppm · call {call} (confidence {s.confidence:.2f}) · "
         f"{STATUS_WORDS[v.status]}" + (f" · {s.reason}" if s.reason else "")
     )
-    return Mark(ppm=s.ppm, text=text, status=v.status, detail=detail)
+    return Mark(ppm=s.ppm, text=text, status=v.status, detail=detail, short=short)
 
 
 def _traces(verdict: Verdict) -> list[tuple[str, Spectrum]]:
@@ -564,7 +573,16 @@ def render_html(
     views = _signal_views(verdict)
     marks = [_mark_for(v) for v in views]
     notes = dict.fromkeys(obs.inverted, "stored phase inverted, corrected")
-    stack = spectrum_stack_svg(_traces(verdict), marks, notes=notes)
+    traces = _traces(verdict)
+    stack, expansions = "", []
+    if traces:
+        lo, hi = stack_window([t for _, t in traces], marks)
+        windows = crowded_windows(marks, lo, hi)
+        stack = spectrum_stack_svg(traces, marks, notes=notes, compact=windows)
+        for a, b in windows:
+            title = f"Expansion {b:.0f}\u2013{a:.0f} ppm"
+            svg = spectrum_stack_svg(traces, marks, notes=notes, ppm_range=(a, b), title=title)
+            expansions.append(Markup(svg))
     marked_atoms = sorted({a for f in verdict.findings if f.severity != "info" for a in f.atoms})
     structure = _structure_svg(exp.molblock, marked_atoms) if exp.molblock else None
     audit = dict(audit or {})
@@ -572,6 +590,8 @@ def render_html(
     severity_rank = {"fail": 0, "review": 1, "info": 2}
     findings = sorted(verdict.findings, key=lambda f: severity_rank.get(f.severity, 3))
     name = (sample.name if sample is not None else "") or exp.name or "unnamed sample"
+    named = {i for imp in verdict.impurities for i in imp.signals}
+    loose = {v.index for v in views if v.status == "impurity" and v.index not in named}
     shown_statuses = [st for st in MARK_STATUSES if any(m.status == st for m in marks)]
     context = {
         "name": name,
@@ -585,6 +605,7 @@ def render_html(
         "obs": obs,
         "experiments": [EXPERIMENT_NAMES.get(e, e) for e in obs.experiments],
         "stack": Markup(stack) if stack else None,
+        "expansions": expansions,
         "legend": [
             (Markup(_legend_glyph(st)), STATUS_WORDS[st]) for st in shown_statuses or ["agree"]
         ],
@@ -614,7 +635,7 @@ def render_html(
             }
             for imp in verdict.impurities
         ],
-        "others": [v for v in views if v.status in ("solvent", "artifact")],
+        "others": [v for v in views if v.status in ("solvent", "artifact") or v.index in loose],
         "candidates": _candidate_rows(verdict, candidates),
         "processing": _processing_rows(verdict),
         "referencing": obs.referencing,
