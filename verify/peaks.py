@@ -1,0 +1,450 @@
+"""Pick the peaks of a processed, referenced spectrum, positive and negative.
+
+A line is picked when it stands ``threshold_snr`` noise SDs above the baseline
+*and* above the valleys that separate it from its neighbours (its prominence):
+the second condition drops noise riding on the wing or shoulder of a big line.
+Positions are interpolated between points (parabola through the apex and its two
+neighbours), widths are full widths at half height, areas are signed integrals
+over ±3 widths (clipped half-way to the next line).
+
+Artefacts are kept with role ``"artifact"``: single-point spikes (narrower than
+one point where real lines span several), broad humps of the baseline (wider
+than 50 Hz and 8× the typical line), and the opposite-sign lobes beside a large
+mis-phased line.
+
+Lines that belong to one carbon are grouped into one :class:`~verify.model.Peak`:
+the solvent multiplet (role ``"solvent"``), and — only when the structure contains
+¹⁹F or ³¹P — doublets (and C–F triplets/quartets) of about equal lines whose
+spacing falls in a handbook range for C–F or C–P couplings.
+
+References
+----------
+C–F couplings (Hz): ¹J 240–290 (CF3 ~272, aryl C–F ~245), ²J 17–35, ³J 5–10,
+⁴J 1–4; C–P: ¹J 50–150, ²J 3–20, ³J 3–15 — from memory, in line with
+E. Pretsch, P. Bühlmann, M. Badertscher, *Structure Determination of Organic
+Compounds*, 4th ed., Springer 2009, 13C coupling tables, and E. Breitmaier,
+W. Voelter, *Carbon-13 NMR Spectroscopy*, 3rd ed., VCH 1987.
+Noise: see :func:`estimate_noise`.
+
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Iterable
+
+import numpy as np
+
+from verify._lines import (
+    Line,
+    binomial_pattern,
+    find_lines,
+    pattern_fit,
+    robust_noise,
+    smooth_baseline,
+)
+from verify.model import Peak, PeakSet, Referencing, Spectrum
+from verify.reference import SolventSignal, canonical_solvent, solvent_signals
+
+__all__ = ["COUPLING_RANGES_HZ", "estimate_noise", "pick_peaks"]
+
+#: Handbook ranges (Hz) of carbon–heteronucleus couplings that split a 13C{1H} line.
+COUPLING_RANGES_HZ: dict[str, tuple[tuple[float, float], ...]] = {
+    "19F": ((240.0, 290.0), (17.0, 35.0), (5.0, 10.0), (1.0, 4.0)),
+    "31P": ((50.0, 150.0), (3.0, 20.0)),  # 3J 3–15 lies inside the 2J range
+}
+_PATTERN_NAME = {"19F": "C-F", "31P": "C-P"}
+#: Half-window (Hz) in which a line's prominence is measured: wide enough for any
+#: carbon line (natural + 1–3 Hz apodization), narrow enough to be local.
+_PROMINENCE_WINDOW_HZ = 30.0
+#: ¹³C–¹³C satellites: each 0.55 % of the parent (1.1 % natural abundance / 2), at
+#: ±¹J(C,C)/2, ¹J(C,C) 30–180 Hz (sp³–sp³ ~35, aromatic ~56, alkyne ~170; from memory,
+#: Breitmaier & Voelter 1987).  Lines below this fraction of a line that close are
+#: satellites (or spinning sidebands), not carbons of the sample.
+_SATELLITE_FRACTION = 0.02
+_SATELLITE_HZ = (12.0, 95.0)
+#: A line below this fraction of the typical sample line (carbon spectrum only) is
+#: taken for an impurity: in routine 13C{1H} spectra a quaternary carbon is seldom
+#: weaker than ~15 % of the median protonated carbon (experience; no table).
+_IMPURITY_FRACTION = 0.06
+
+
+def estimate_noise(spectrum: Spectrum) -> float:
+    """Robust noise standard deviation of a spectrum.
+
+    The spectrum is cut into 64 segments; each loses a straight-line trend and
+    gives ``1.4826·MAD``; the median over segments is returned.  Lines occupy few
+    points of a segment and crowd few segments, so neither moves the result, and
+    a rolling baseline is taken out per segment.
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        Any spectrum (processed, either sign).
+
+    Returns
+    -------
+    float
+        Noise SD in spectrum intensity units.
+
+    References
+    ----------
+    P. J. Rousseeuw, C. Croux, J. Am. Stat. Assoc. 1993, 88, 1273 (MAD, 1.4826).
+    Using signal-free segments of the spectrum for the noise is common practice
+    (the SNR of a spectrometer's acceptance test is measured that way).
+
+    """
+    return robust_noise(spectrum.intensity)
+
+
+def pick_peaks(
+    spectrum: Spectrum,
+    experiment: str,
+    *,
+    threshold_snr: float = 6.0,
+    solvent: str | None = None,
+    hetero: frozenset[str] = frozenset(),
+    referencing: Referencing | None = None,
+) -> PeakSet:
+    """Pick positive and negative peaks and group multiplets of one carbon.
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        Processed spectrum on its referenced ppm axis.
+    experiment : str
+        Role of the spectrum (``"carbon"``, ``"dept135"`` …).
+    threshold_snr : float
+        A line must rise this many noise SDs above the baseline and above its
+        surrounding valleys.
+    solvent : str, optional
+        Solvent whose multiplet is labelled ``"solvent"`` (falls back on
+        ``referencing.solvent`` and then ``spectrum.solvent``).
+    hetero : frozenset of str
+        Coupled heteronuclei in the structure (``"19F"``, ``"31P"``); only then are
+        C–F/C–P multiplets grouped.
+    referencing : Referencing, optional
+        The sample's referencing (for the solvent name).
+
+    Returns
+    -------
+    PeakSet
+        Peaks sorted by descending ppm; ``noise`` the robust SD; ``spectrum`` this
+        spectrum.
+
+    References
+    ----------
+    See the module docstring.
+
+    """
+    ppm = spectrum.ppm
+    sigma = estimate_noise(spectrum)
+    raw = spectrum.intensity
+    if sigma <= 0:  # noiseless (synthetic) data: anything above 1e-6 of the maximum
+        sigma = float(np.max(np.abs(raw))) * 1e-6 or 1.0
+        y = raw
+    else:
+        # heights count from the local baseline (files may hold an offset or a roll)
+        y = raw - smooth_baseline(raw)
+    thr = threshold_snr * sigma
+    step = float(ppm[1] - ppm[0])
+    hz_per_point = abs(step) * spectrum.observe_mhz
+    wlen = 2 * max(10, int(round(_PROMINENCE_WINDOW_HZ / hz_per_point))) + 1
+    lines = find_lines(y, thr, min_prominence=thr, wlen=wlen)
+    lines += find_lines(y, thr, min_prominence=thr, sign=-1, wlen=wlen)
+    lines.sort(key=lambda ln: ln.pos)
+
+    def at(pos: float) -> float:
+        return float(ppm[0] + pos * step)
+
+    roles = _artifact_roles(lines, hz_per_point)
+    # one line → one Peak; multiplets merge several
+    peaks: list[Peak] = []
+    used: set[int] = set()
+
+    # the solvent the referencing actually found beats the one written down
+    found = referencing.solvent if referencing and referencing.method == "solvent" else None
+    key = canonical_solvent(found or solvent or spectrum.solvent)
+    if key is not None and experiment in ("carbon", "apt"):
+        found_primary = False
+        for sig in solvent_signals(key):
+            if sig.deuterium == 0 and not found_primary:
+                continue
+            group = _solvent_group(lines, used, sig, at, hz_per_point)
+            if group is None:
+                continue
+            found_primary = found_primary or sig.primary
+            members = [lines[i] for i in group]
+            used.update(group)
+            peak = _merge(members, y, at, hz_per_point, sigma, "solvent", "solvent")
+            if sig.deuterium > 0:
+                peak = _with_j(peak, sig.j_hz, members, step, spectrum.observe_mhz)
+            peaks.append(peak)
+            _mark_isotopologues(lines, roles, used, group, sig, at, spectrum.observe_mhz)
+
+    for nucleus in ("19F", "31P"):
+        if nucleus not in hetero:
+            continue
+        for group, j in _coupled_groups(lines, roles, used, nucleus, hz_per_point):
+            used.update(group)
+            peak = _merge([lines[i] for i in group], y, at, hz_per_point, sigma, "sample",
+                          _PATTERN_NAME[nucleus])  # fmt: skip
+            peaks.append(_with_j(peak, j, None, step, spectrum.observe_mhz))
+
+    if experiment == "carbon":
+        _mark_weak(lines, roles, used, peaks)
+    for i, ln in enumerate(lines):
+        if i in used:
+            continue
+        peaks.append(_merge([ln], y, at, hz_per_point, sigma, roles[i], None))
+
+    return PeakSet(
+        experiment=experiment,
+        peaks=tuple(peaks),
+        noise=sigma,
+        spectrum=spectrum,
+        threshold_snr=threshold_snr,
+    )
+
+
+# ----------------------------------------------------------------------- helpers
+
+
+def _artifact_roles(lines: list[Line], hz_per_point: float) -> list[str]:
+    """``"sample"`` or ``"artifact"`` for each line (spikes, humps, phase lobes)."""
+    roles = ["sample"] * len(lines)
+    if not lines:
+        return roles
+    strong = [ln.width for ln in lines if ln.prominence > 0.5 * abs(ln.height)]
+    typical = float(np.median(strong)) if strong else float(np.median([ln.width for ln in lines]))
+    for i, ln in enumerate(lines):
+        if ln.width <= 1.05 and typical > 2.0:
+            roles[i] = "artifact"  # a one-point spike where real lines span several
+        elif ln.width * hz_per_point > 50.0 and ln.width > 8.0 * typical:
+            roles[i] = "artifact"  # a baseline hump
+    for i, ln in enumerate(lines):
+        for big in lines:
+            d = abs(big.pos - ln.pos) * hz_per_point
+            if (
+                _SATELLITE_HZ[0] <= d <= _SATELLITE_HZ[1]
+                and abs(ln.height) < _SATELLITE_FRACTION * abs(big.height)
+                and np.sign(big.height) == np.sign(ln.height)
+            ):
+                roles[i] = "artifact"  # a 13C-13C satellite or spinning sideband
+                break
+    for i, ln in enumerate(lines):
+        for j in (i - 1, i + 1):
+            if not 0 <= j < len(lines):
+                continue
+            big = lines[j]
+            if (
+                np.sign(big.height) != np.sign(ln.height)
+                and abs(ln.height) < 0.25 * abs(big.height)
+                and abs(ln.pos - big.pos) < 2.5 * big.width
+            ):
+                roles[i] = "artifact"  # the opposite lobe of a dispersive (mis-phased) line
+    return roles
+
+
+def _mark_isotopologues(
+    lines: list[Line],
+    roles: list[str],
+    used: set[int],
+    group: list[int],
+    sig: SolventSignal,
+    at: Callable[[float], float],
+    mhz: float,
+) -> None:
+    """Label as solvent the weak lines of the solvent's partly protonated isotopologues.
+
+    CHCl3 in CDCl3, CHD2 in a CD3 solvent: a deuterium replaced by protium moves
+    the carbon ~0.2–0.3 ppm downfield (one-bond isotope shift; from memory), and
+    those lines, and the solvent line's own satellites, lie just beside it.  Lines
+    from the multiplet's low edge to 0.45 ppm above its high edge, weaker than a
+    quarter of the strongest solvent line, are taken for them.
+    """
+    centre_lines = [at(lines[i].pos) for i in group]
+    top = max(abs(lines[i].height) for i in group)
+    span = (len(sig.pattern) // 2) * sig.j_hz / mhz
+    lo = min(centre_lines) - 0.05 - (0.0 if span else 0.3)
+    hi = max(centre_lines) + 0.45
+    for i, ln in enumerate(lines):
+        if i in used:
+            continue
+        if lo <= at(ln.pos) <= hi and abs(ln.height) < 0.25 * top:
+            roles[i] = "solvent"
+
+
+def _mark_weak(lines: list[Line], roles: list[str], used: set[int], peaks: list[Peak]) -> None:
+    """Mark as ``"impurity"`` the sample lines far weaker than the typical one."""
+    solvent_h = [abs(p.height) for p in peaks if p.role == "solvent"]
+    cand = [i for i in range(len(lines)) if roles[i] == "sample" and i not in used]
+    if len(cand) < 3:
+        return
+    hs = np.array([abs(lines[i].height) for i in cand])
+    strong = hs[hs >= 0.1 * hs.max()]
+    typical = float(np.median(strong))
+    del solvent_h
+    for i, h in zip(cand, hs, strict=True):
+        if h < _IMPURITY_FRACTION * typical:
+            roles[i] = "impurity"
+
+
+def _area(y: np.ndarray, lo: float, hi: float, step: float) -> float:
+    a, b = max(0, int(math.floor(lo))), min(y.size, int(math.ceil(hi)) + 1)
+    return float(np.sum(y[a:b]) * abs(step))
+
+
+def _merge(
+    group: list[Line],
+    y: np.ndarray,
+    at: Callable[[float], float],
+    hz_per_point: float,
+    sigma: float,
+    role: str,
+    pattern: str | None,
+) -> Peak:
+    """One Peak from one or more lines (a multiplet: centre, lines, summed area)."""
+    to_ppm = at
+    group = sorted(group, key=lambda ln: ln.pos)
+    top = max(group, key=lambda ln: abs(ln.height))
+    step = to_ppm(1.0) - to_ppm(0.0)
+    lo = group[0].pos - 3 * group[0].width
+    hi = group[-1].pos + 3 * group[-1].width
+    area = _area(y, lo, hi, step)
+    if len(group) == 1:
+        centre = float(to_ppm(top.pos))
+        lines_ppm: tuple[float, ...] = ()
+    else:
+        heights = np.array([abs(ln.height) for ln in group])
+        centre = float(to_ppm(float(np.average([ln.pos for ln in group], weights=heights))))
+        lines_ppm = tuple(float(to_ppm(ln.pos)) for ln in group)
+    return Peak(
+        ppm=centre,
+        height=float(top.height),
+        area=area,
+        snr=abs(float(top.height)) / sigma,
+        width_hz=float(top.width * hz_per_point),
+        lines=lines_ppm,
+        pattern=pattern,
+        role=role,
+    )
+
+
+def _with_j(peak: Peak, j: float, group: list[Line] | None, step: float, mhz: float) -> Peak:
+    if group and len(group) > 1:
+        pos = sorted(ln.pos for ln in group)
+        j = float(np.mean(np.diff(pos))) * abs(step) * mhz
+    from dataclasses import replace
+
+    return replace(peak, j_hz=float(j))
+
+
+def _solvent_group(
+    lines: list[Line],
+    used: set[int],
+    sig: SolventSignal,
+    at: Callable[[float], float],
+    hz_per_point: float,
+) -> list[int] | None:
+    """Find the lines forming the solvent signal ``sig`` near its shift (indices).
+
+    A multiplet: lines of one sign at the pattern's positions (±25 % of J) around
+    a centre line within 0.15 ppm of the published shift, heights fitting the
+    pattern; weak outer lines may be missing.  A singlet (unresolved splitting):
+    the strongest line within 0.3 ppm.
+    """
+    to_ppm = at
+    cands = [
+        i for i, ln in enumerate(lines) if i not in used and abs(to_ppm(ln.pos) - sig.ppm) < 0.6
+    ]
+    if not cands:
+        return None
+    if sig.deuterium == 0:
+        near = [k for k in cands if abs(to_ppm(lines[k].pos) - sig.ppm) < 0.3]
+        return [max(near, key=lambda k: abs(lines[k].height))] if near else None
+    pattern = sig.pattern
+    n = len(pattern)
+    best: tuple[float, list[int]] | None = None
+    for c in cands:
+        if abs(to_ppm(lines[c].pos) - sig.ppm) > 0.15:
+            continue
+        sign = np.sign(lines[c].height)
+        jp = sig.j_hz / hz_per_point
+        chosen: list[int] = []
+        for k in range(n):
+            expect = lines[c].pos + (k - n // 2) * jp
+            near = [
+                i
+                for i in cands
+                if np.sign(lines[i].height) == sign and abs(lines[i].pos - expect) < 0.25 * jp
+            ]
+            if near:
+                chosen.append(min(near, key=lambda i: abs(lines[i].pos - expect)))
+        if len(chosen) < min(n, 3) or len(set(chosen)) != len(chosen):
+            continue
+        # missing weak outer lines are allowed; fit the lines we have
+        ks = [round((lines[i].pos - lines[c].pos) / jp) + n // 2 for i in chosen]
+        h = np.array([abs(lines[i].height) for i in chosen])
+        misfit = pattern_fit(h, tuple(pattern[k] for k in ks))
+        if misfit < 0.4 and (best is None or misfit < best[0]):
+            best = (misfit, chosen)
+    return None if best is None else best[1]
+
+
+def _coupled_groups(
+    lines: list[Line], roles: list[str], used: set[int], nucleus: str, hz_per_point: float
+) -> Iterable[tuple[list[int], float]]:
+    """Multiplets from coupling to one or three spin-½ heteronuclei (C–F, C–P).
+
+    Quartets (CF3, 1:3:3:1) first, then triplets (CF2, 1:2:1, C–F only), then
+    doublets of about equal lines (heights within a factor 0.6, widths within 2×);
+    each line joins one group; the best-fitting candidates are taken first.
+    """
+    ranges = COUPLING_RANGES_HZ[nucleus]
+    free = [i for i in range(len(lines)) if i not in used and roles[i] == "sample"]
+    taken: set[int] = set()
+    out: list[tuple[list[int], float]] = []
+    sizes = (4, 3, 2) if nucleus == "19F" else (2,)
+    for size in sizes:
+        pattern = binomial_pattern(size - 1, spin2=False)
+        cands: list[tuple[float, list[int], float]] = []
+        for a in free:
+            for b in free:
+                if b <= a:
+                    continue
+                d = (lines[b].pos - lines[a].pos) * hz_per_point
+                if not any(lo <= d <= hi for lo, hi in ranges):
+                    continue
+                if np.sign(lines[a].height) != np.sign(lines[b].height):
+                    continue
+                group = [a, b]
+                if size > 2:
+                    tol = max(1.0, 0.05 * d) / hz_per_point
+                    for k in range(2, size):
+                        expect = lines[a].pos + k * (lines[b].pos - lines[a].pos)
+                        near = [i for i in free if abs(lines[i].pos - expect) < tol]
+                        if not near:
+                            break
+                        group.append(min(near, key=lambda i: abs(lines[i].pos - expect)))
+                    if len(group) < size:
+                        continue
+                hs = np.array([abs(lines[i].height) for i in group])
+                ws = np.array([lines[i].width for i in group])
+                if np.any(np.sign([lines[i].height for i in group]) != np.sign(lines[a].height)):
+                    continue
+                if ws.max() > 2.0 * ws.min():
+                    continue
+                if size == 2 and hs.min() < 0.6 * hs.max():
+                    continue
+                misfit = pattern_fit(hs, pattern)
+                if size > 2 and misfit > 0.25:
+                    continue
+                cands.append((misfit, group, d))
+        for _misfit, group, d in sorted(cands, key=lambda t: t[0]):
+            if any(i in taken for i in group):
+                continue
+            taken.update(group)
+            out.append((group, d))
+        free = [i for i in free if i not in taken]
+    return out
