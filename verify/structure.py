@@ -109,7 +109,7 @@ def _couplings() -> dict[str, dict[str, tuple[float, float]]]:
 def _captured_log() -> Iterator[list[str]]:
     """Collect RDKit error/warning messages instead of printing them."""
     messages: list[str] = []
-    with rdBase.CaptureErrorLog() as log:  # type: ignore[attr-defined]
+    with rdBase.CaptureErrorLog() as log:
         try:
             yield messages
         finally:
@@ -128,13 +128,14 @@ def _strip_protium(mol: Chem.Mol) -> Chem.Mol:
     mol = Chem.Mol(mol)
     for atom in mol.GetAtoms():
         atom.SetIntProp(_INPUT_IDX, atom.GetIdx())
-    full_block = Chem.MolToMolBlock(mol)
+    has_h = any(a.GetAtomicNum() == 1 for a in mol.GetAtoms())
+    full_block = Chem.MolToMolBlock(mol) if has_h else ""
     params = Chem.RemoveHsParameters()
-    params.removeIsotopes = False
-    params.removeDefiningBondStereo = True
-    params.removeWithWedgedBond = True
-    params.showWarnings = False
-    out = Chem.RemoveHs(mol, params, sanitize=True)
+    params.removeIsotopes = False  # type: ignore[assignment]  # RDKit stub types
+    params.removeDefiningBondStereo = True  # type: ignore[assignment]  # RDKit stub types
+    params.removeWithWedgedBond = True  # type: ignore[assignment]  # RDKit stub types
+    params.showWarnings = False  # type: ignore[assignment]  # RDKit stub types
+    out = Chem.RemoveHs(mol, params, sanitize=True) if has_h else mol
     kept = [a.GetIntProp(_INPUT_IDX) for a in out.GetAtoms()]
     if kept != list(range(len(kept))):
         out.SetProp(_INPUT_BLOCK, full_block)
@@ -143,8 +144,8 @@ def _strip_protium(mol: Chem.Mol) -> Chem.Mol:
 
 def _parse_smiles(text: str) -> Chem.Mol:
     params = Chem.SmilesParserParams()
-    params.removeHs = False
-    params.sanitize = False
+    params.removeHs = False  # type: ignore[assignment]  # RDKit stub types
+    params.sanitize = False  # type: ignore[assignment]  # RDKit stub types
     with _captured_log() as log:
         mol = Chem.MolFromSmiles(text, params)
     if mol is None:
@@ -473,22 +474,26 @@ def _tagged(form: Chem.Mol, skip_bonds: set[int]) -> Chem.Mol:
     return rw.GetMol()
 
 
-def _label_key(form: Chem.Mol, atom: int, *, mirror: bool, legacy: bool) -> str:
-    """Canonical isomeric SMILES of `form` with `atom` labelled (optionally mirrored)."""
+def _mirrored(form: Chem.Mol) -> Chem.Mol:
+    """Return the mirror image: every tetrahedral tag inverted (double bonds unchanged)."""
     rw = Chem.RWMol(form)
-    rw.GetAtomWithIdx(atom).SetIsotope(_LABEL)
-    if mirror:
-        for a in rw.GetAtoms():
-            tag = a.GetChiralTag()
-            if tag == _CW:
-                a.SetChiralTag(_CCW)
-            elif tag == _CCW:
-                a.SetChiralTag(_CW)
-    mol = rw.GetMol()
+    for a in rw.GetAtoms():
+        tag = a.GetChiralTag()
+        if tag == _CW:
+            a.SetChiralTag(_CCW)
+        elif tag == _CCW:
+            a.SetChiralTag(_CW)
+    return rw.GetMol()
+
+
+def _label_key(form: Chem.Mol, atom: int, *, legacy: bool) -> str:
+    """Canonical isomeric SMILES of `form` with `atom` labelled by an isotope."""
+    mol = Chem.Mol(form)
+    mol.GetAtomWithIdx(atom).SetIsotope(_LABEL)
     if legacy:
         Chem.SetDoubleBondNeighborDirections(mol)
     Chem.AssignStereochemistry(mol, cleanIt=True, force=True)
-    return Chem.MolToSmiles(mol)
+    return str(Chem.MolToSmiles(mol))
 
 
 @contextmanager
@@ -516,6 +521,7 @@ class _Analysis:
                     pass
             ready.append(_tagged(form, skip))
         self.forms = ready
+        self.mirrors = [_mirrored(f) for f in ready]
         carbons = [a.GetIdx() for a in forms[0].GetAtoms() if a.GetAtomicNum() == 6]
         by_rank: dict[int, list[int]] = {}
         for i in carbons:
@@ -525,14 +531,25 @@ class _Analysis:
             self.classes.extend(self._split(members) if len(members) > 1 else [members])
         self.classes.sort()
 
-    def _keys(self, atom: int, legacy: bool) -> str:
+    def _key(self, atom: int, *, mirrors: tuple[bool, ...], legacy: bool) -> str:
         with _stereo_perception(legacy):
             return min(
-                _label_key(f, atom, mirror=m, legacy=legacy) for f in self.forms for m in (0, 1)
+                _label_key(f, atom, legacy=legacy)
+                for m in mirrors
+                for f in (self.mirrors if m else self.forms)
             )
 
     def _split(self, members: list[int]) -> list[list[int]]:
-        keys = {i: (self._keys(i, True), self._keys(i, False)) for i in members}
+        """Split one candidate class by the substitution test (cheapest keys first)."""
+        # 1. labelled molecules alike as drawn (homotopic): usually settles it
+        plain = {i: self._key(i, mirrors=(False,), legacy=True) for i in members}
+        if len(set(plain.values())) == 1:
+            return [members]
+        # 2. {labelled, mirror image} as a pair: equal for enantiotopic atoms too
+        keys = [{i: min(plain[i], self._key(i, mirrors=(True,), legacy=True)) for i in members}]
+        if len(set(keys[0].values())) > 1:
+            # 3. the other stereo perception (each misses some cases, see module notes)
+            keys.append({i: self._key(i, mirrors=(False, True), legacy=False) for i in members})
         parent = {i: i for i in members}
 
         def find(i: int) -> int:
@@ -540,10 +557,11 @@ class _Analysis:
                 i = parent[i]
             return i
 
-        for n, i in enumerate(members):
-            for j in members[:n]:
-                if keys[i][0] == keys[j][0] or keys[i][1] == keys[j][1]:
-                    parent[find(i)] = find(j)
+        for key in keys:
+            first: dict[str, int] = {}
+            for i in members:
+                j = first.setdefault(key[i], i)
+                parent[find(i)] = find(j)
         groups: dict[int, list[int]] = {}
         for i in members:
             groups.setdefault(find(i), []).append(i)
@@ -563,7 +581,8 @@ def _heavy_neighbours(atom: Chem.Atom) -> list[Chem.Atom]:
 def _double_partner(mol: Chem.Mol, atom: Chem.Atom) -> Chem.Atom | None:
     for b in atom.GetBonds():
         if b.GetBondType() == Chem.BondType.DOUBLE:
-            return b.GetOtherAtom(atom)
+            other: Chem.Atom = b.GetOtherAtom(atom)
+            return other
     return None
 
 
@@ -832,7 +851,7 @@ def _phosphorus_kind(mol: Chem.Mol, p: Chem.Atom, carbon: Chem.Atom, path: Seque
 
 
 def _couplings_of(
-    mol: Chem.Mol, idx: int, fclass: dict[int, int]
+    mol: Chem.Mol, idx: int, fclass: dict[int, int], hetero: Sequence[int]
 ) -> tuple[tuple[Coupling, ...], set[str]]:
     """Return the expected C-F, C-P and C-D splittings of carbon `idx`."""
     table = _couplings()
@@ -841,10 +860,9 @@ def _couplings_of(
     atom = mol.GetAtomWithIdx(idx)
     groups: dict[tuple[str, int, Any], int] = {}
     ranges: dict[tuple[str, int, Any], tuple[float, float]] = {}
-    for other in mol.GetAtoms():
+    for h in hetero:
+        other = mol.GetAtomWithIdx(h)
         z = other.GetAtomicNum()
-        if z not in (9, 15):
-            continue
         path = Chem.GetShortestPath(mol, idx, other.GetIdx())
         if not path:
             continue
@@ -906,24 +924,20 @@ def _n_side(mol: Chem.Mol, c: int, n: int) -> set[int]:
 
 def _fragment_classes(frag: Chem.Mol) -> list[tuple[list[int], set[str], int | None]]:
     """Carbon classes of one fragment: (atoms, flags, partner index within fragment)."""
-    plain_forms = [Chem.Mol(frag)]
     amides = _amide_sites(frag, set())
-    plain = _Analysis(plain_forms, amides)
     res_forms = _resonance_forms(frag)
     res_bonds, res_atoms = _varying(res_forms)
-    resonance = (
-        plain if len(res_forms) == 1 else _Analysis(res_forms, _amide_sites(frag, res_bonds))
-    )
     exch_mol, tautomeric = _exchange_normalise(frag)
-    same = Chem.MolToSmiles(exch_mol) == Chem.MolToSmiles(frag)
-    if same:
-        full = resonance
+    if Chem.MolToSmiles(exch_mol) == Chem.MolToSmiles(frag):
+        full = _Analysis(res_forms, _amide_sites(frag, res_bonds))
     else:
         ex_forms = _resonance_forms(exch_mol)
         ex_bonds, _ = _varying(ex_forms)
         full = _Analysis(ex_forms, _amide_sites(exch_mol, ex_bonds))
-    plain_of = plain.class_of()
-    res_of = resonance.class_of()
+    # constitutional ranks of the localised drawing and of its resonance hybrid: a class
+    # spanning several of them was merged by resonance or by exchange
+    plain_of = list(Chem.CanonicalRankAtoms(frag, breakTies=False, includeChirality=False))
+    res_of = _hybrid_ranks(res_forms) if len(res_forms) > 1 else plain_of
     amide_sides = [(_n_side(frag, c, n), n) for _x, c, n in amides]
     alpha = {
         nb.GetIdx()
@@ -1015,6 +1029,7 @@ def expected_inventory(
             fragments.append(smi)
         frag_key.append(fragments.index(smi))
     fclass = dict(enumerate(Chem.CanonicalRankAtoms(mol, breakTies=False, includeChirality=False)))
+    hetero = [a.GetIdx() for a in mol.GetAtoms() if a.GetAtomicNum() in (9, 15)]
     classes: list[CarbonClass] = []
     done: set[int] = set()
     for f, fm in enumerate(frag_mols):
@@ -1024,17 +1039,17 @@ def expected_inventory(
         done.add(key)
         copies = [g for g in range(len(frag_mols)) if frag_key[g] == key]
         local = _fragment_classes(fm)
+        pos = {a: k for k, a in enumerate(orders[f])}
         base = len(classes)
         for members, flags, partner in local:
             mapped: list[int] = []
             for g in copies:
                 # the same canonical SMILES: the k-th atom written corresponds
-                pos = {a: k for k, a in enumerate(orders[f])}
                 for m in members:
                     mapped.append(frag_atoms[g][orders[g][pos[m]]])
             rep = mol.GetAtomWithIdx(frag_atoms[f][members[0]])
             env = _environment(mol, rep)
-            couplings, cflags = _couplings_of(mol, rep.GetIdx(), fclass)
+            couplings, cflags = _couplings_of(mol, rep.GetIdx(), fclass, hetero)
             nh = _protium(rep)
             mult: Multiplicity = MULTIPLICITIES[min(nh, 3)]
             all_flags = flags | cflags
