@@ -97,10 +97,13 @@ def make_verdict(
     structure: str = SMILES,
     solvent_label: str = "CDCl3",
     score: float = 0.9,
+    impurity_as_sample: bool = False,
 ) -> Verdict:
     """A full hand-made Verdict with carbon, DEPT-90 and DEPT-135 spectra.
 
-    `impurity` maps an impurity name to one extra signal shift (ppm) to add.
+    `impurity` maps an impurity name to one extra signal shift (ppm) to add.  With
+    `impurity_as_sample` those signals keep the classify stage's role "sample" (with
+    a CH2 call) and only the verdict's Impurity record explains them.
     """
     mol = Chem.MolFromSmiles(SMILES)
     cls = classes(mol)
@@ -138,9 +141,14 @@ def make_verdict(
     )
     for imp_name, shift in (impurity or {}).items():
         carbon_lines.append((shift, 0.08))
-        signals.append(
-            Signal(ppm=shift, multiplicity=None, confidence=0.5, role="impurity", label=imp_name)
-        )
+        if impurity_as_sample:
+            signals.append(Signal(ppm=shift, multiplicity="CH2", confidence=0.9, label=imp_name))
+        else:
+            signals.append(
+                Signal(
+                    ppm=shift, multiplicity=None, confidence=0.5, role="impurity", label=imp_name
+                )
+            )
     spectra = {
         "carbon": spectrum(carbon_lines, "carbon", 1),
         "dept90": spectrum(l90, "dept90", 2),

@@ -145,6 +145,18 @@ def test_inventory_table_matches_model_counts() -> None:
     assert (exp["C"], exp["CH"], exp["CH3"]) == (3, 4, 2)
 
 
+def test_inventory_leaves_out_signals_the_verdict_explained_as_impurity() -> None:
+    # ethyl acetate OCH2 at 60.49 ppm in CDCl3 (Gottlieb et al. 1997, from memory),
+    # called CH2 by classify but explained by the verdict stage's Impurity record
+    v = make_verdict(impurity={"ethyl acetate": 60.49}, impurity_as_sample=True)
+    assert v.observation.signal_counts()["CH2"] == 1  # the raw count includes it
+    doc = parse(render_html(v))
+    row = [r for r in doc.by_id("inventory").find_all("tr") if r.attrs.get("data-class") == "CH2"]
+    cells = [c.text for c in row[0].children if c.tag in ("td", "th")]
+    assert cells[1:5] == ["0", "0", "0", "agrees"]
+    assert "ethyl acetate" in doc.by_id("impurities").text
+
+
 def test_candidate_ranking_by_score() -> None:
     best = make_verdict(score=0.9)
     worse = make_verdict(

@@ -343,10 +343,16 @@ def _traces(verdict: Verdict) -> list[tuple[str, Spectrum]]:
 
 def _inventory_rows(verdict: Verdict) -> list[dict[str, Any]]:
     exp, obs = verdict.expectation, verdict.observation
-    carbons, signals, seen = exp.inventory(), exp.signals(), obs.signal_counts()
+    carbons, signals = exp.inventory(), exp.signals()
+    # Observation.signal_counts() counts every sample-role signal; the verdict stage may
+    # since have explained some of them as an impurity, and those are not the sample's
+    explained = {i for imp in verdict.impurities for i in imp.signals}
+    own = [s for i, s in enumerate(obs.signals) if s.role == "sample" and i not in explained]
+    seen = dict.fromkeys(MULTIPLICITIES, 0)
     seen_c = dict.fromkeys(MULTIPLICITIES, 0)
-    for s in obs.sample_signals:
+    for s in own:
         if s.multiplicity is not None:
+            seen[s.multiplicity] += 1
             seen_c[s.multiplicity] += s.carbons
     rows: list[dict[str, Any]] = []
     for m in MULTIPLICITIES:
@@ -362,7 +368,7 @@ def _inventory_rows(verdict: Verdict) -> list[dict[str, Any]]:
                 "word": "agrees" if diff == 0 else f"differs by {diff:+d}",
             }
         )
-    unknown = sum(1 for s in obs.sample_signals if s.multiplicity is None)
+    unknown = sum(1 for s in own if s.multiplicity is None)
     if unknown:
         rows.append(
             {
