@@ -191,6 +191,16 @@ def test_gem_dimethyl_between_like_and_unlike_centres() -> None:
     assert len(meso.classes) == 5
 
 
+def test_unspecified_relative_configuration_keeps_finest_split() -> None:
+    # Symmetry (as above): drawn without stereo, the gem-dimethyls may be diastereotopic
+    # (meso) or not (R,R); the expectation keeps them apart, flagged, with partners.
+    exp = expected_inventory("CC(O)C(C)(C)C(O)C")
+    a, b = class_of(exp, 4), class_of(exp, 5)
+    assert a is not b and "diastereotopic" in a.flags
+    assert exp.classes[a.partner] is b
+    assert class_of(exp, 0) is class_of(exp, 8)
+
+
 @pytest.mark.parametrize(
     ("smiles", "count", "split"),
     [

@@ -47,6 +47,7 @@ References
 from __future__ import annotations
 
 import os
+import random
 import tomllib
 from collections.abc import Iterable, Iterator, Sequence
 from contextlib import contextmanager
@@ -444,8 +445,13 @@ def _zwitterion(form: Chem.Mol, sites: Iterable[tuple[int, int, int]]) -> Chem.M
     return out
 
 
-def _tagged(form: Chem.Mol, skip_bonds: set[int]) -> Chem.Mol:
-    """Give every unspecified potential stereo element a fixed arbitrary configuration."""
+def _tagged(form: Chem.Mol, skip_bonds: set[int], flip: frozenset[int] = frozenset()) -> Chem.Mol:
+    """Give every unspecified potential stereo element a fixed arbitrary configuration.
+
+    Atoms whose index is in `flip` get the other configuration (CCW instead of CW),
+    double bonds whose index (offset by the atom count) is in `flip` trans instead of cis.
+    """
+    n_atoms = form.GetNumAtoms()
     rw = Chem.RWMol(form)
     for a in rw.GetAtoms():
         if a.GetChiralTag() != Chem.ChiralType.CHI_UNSPECIFIED or a.GetIsAromatic():
@@ -457,7 +463,7 @@ def _tagged(form: Chem.Mol, skip_bonds: set[int]) -> Chem.Mol:
         tetra |= z == 7 and a.GetFormalCharge() == 1 and deg == 4
         tetra |= z in (15, 16) and deg >= 3 and nh == 0 and deg <= 4
         if tetra:
-            a.SetChiralTag(_CW)
+            a.SetChiralTag(_CCW if a.GetIdx() in flip else _CW)
     for b in rw.GetBonds():
         if b.GetBondType() != Chem.BondType.DOUBLE or b.GetIdx() in skip_bonds:
             continue
@@ -470,7 +476,8 @@ def _tagged(form: Chem.Mol, skip_bonds: set[int]) -> Chem.Mol:
         ny = [n.GetIdx() for n in y.GetNeighbors() if n.GetIdx() != x.GetIdx()]
         if nx and ny:
             b.SetStereoAtoms(nx[0], ny[0])
-            b.SetStereo(Chem.BondStereo.STEREOCIS)
+            trans = n_atoms + b.GetIdx() in flip
+            b.SetStereo(Chem.BondStereo.STEREOTRANS if trans else Chem.BondStereo.STEREOCIS)
     return rw.GetMol()
 
 
@@ -509,7 +516,12 @@ def _stereo_perception(legacy: bool) -> Iterator[None]:
 class _Analysis:
     """Carbon classes of one fragment under one normalisation."""
 
-    def __init__(self, forms: Sequence[Chem.Mol], amides: Sequence[tuple[int, int, int]]):
+    def __init__(
+        self,
+        forms: Sequence[Chem.Mol],
+        amides: Sequence[tuple[int, int, int]],
+        flip: frozenset[int] = frozenset(),
+    ):
         self.ranks = _hybrid_ranks(forms)
         skip, _ = _varying(forms)
         ready = []
@@ -519,7 +531,7 @@ class _Analysis:
                     form = _zwitterion(form, amides)
                 except Exception:  # cannot draw the zwitterion: use the plain form
                     pass
-            ready.append(_tagged(form, skip))
+            ready.append(_tagged(form, skip, flip))
         self.forms = ready
         self.mirrors = [_mirrored(f) for f in ready]
         carbons = [a.GetIdx() for a in forms[0].GetAtoms() if a.GetAtomicNum() == 6]
@@ -922,6 +934,42 @@ def _n_side(mol: Chem.Mol, c: int, n: int) -> set[int]:
     return seen if c not in seen else set()
 
 
+#: Alternative configurations tried when two or more stereo elements are unspecified.
+_VARIANTS = 3
+
+
+def _configuration_variants(frag: Chem.Mol) -> list[frozenset[int]]:
+    """Flip sets for other relative configurations of unspecified stereo elements.
+
+    Empty when fewer than two stereo elements are unspecified (one alone only makes
+    the enantiomer, which has the same classes).  Deterministic (seeded).
+    """
+    n_atoms = frag.GetNumAtoms()
+    elements = []
+    for si in Chem.FindPotentialStereo(frag):
+        if si.specified != Chem.StereoSpecified.Unspecified:
+            continue
+        if si.type == Chem.StereoType.Atom_Tetrahedral:
+            elements.append(si.centeredOn)
+        elif si.type == Chem.StereoType.Bond_Double:
+            elements.append(n_atoms + si.centeredOn)
+    if len(elements) < 2:
+        return []
+    rng = random.Random(len(elements))
+    variants: list[frozenset[int]] = []
+    if len(elements) <= 3:
+        subsets = [
+            frozenset(e for k, e in enumerate(elements) if mask >> k & 1)
+            for mask in range(1, 2 ** (len(elements) - 1))
+        ]
+        return subsets
+    while len(variants) < _VARIANTS:
+        pick = frozenset(e for e in elements if rng.random() < 0.5)
+        if pick and pick not in variants:
+            variants.append(pick)
+    return variants
+
+
 def _fragment_classes(frag: Chem.Mol) -> list[tuple[list[int], set[str], int | None]]:
     """Carbon classes of one fragment: (atoms, flags, partner index within fragment)."""
     amides = _amide_sites(frag, set())
@@ -929,11 +977,21 @@ def _fragment_classes(frag: Chem.Mol) -> list[tuple[list[int], set[str], int | N
     res_bonds, res_atoms = _varying(res_forms)
     exch_mol, tautomeric = _exchange_normalise(frag)
     if Chem.MolToSmiles(exch_mol) == Chem.MolToSmiles(frag):
-        full = _Analysis(res_forms, _amide_sites(frag, res_bonds))
+        forms, sites = res_forms, _amide_sites(frag, res_bonds)
     else:
-        ex_forms = _resonance_forms(exch_mol)
-        ex_bonds, _ = _varying(ex_forms)
-        full = _Analysis(ex_forms, _amide_sites(exch_mol, ex_bonds))
+        forms = _resonance_forms(exch_mol)
+        sites = _amide_sites(exch_mol, _varying(forms)[0])
+    full = _Analysis(forms, sites)
+    variants = _configuration_variants(frag)
+    if variants:
+        # the relative configuration is not given: a carbon pair counts as one class only
+        # if it is equivalent in every configuration tried (the finest partition wins)
+        maps = [full.class_of()] + [_Analysis(forms, sites, v).class_of() for v in variants]
+        groups: dict[tuple[int, ...], list[int]] = {}
+        for members in full.classes:
+            for a in members:
+                groups.setdefault(tuple(m[a] for m in maps), []).append(a)
+        full.classes = sorted(groups.values())
     # constitutional ranks of the localised drawing and of its resonance hybrid: a class
     # spanning several of them was merged by resonance or by exchange
     plain_of = list(Chem.CanonicalRankAtoms(frag, breakTies=False, includeChirality=False))
