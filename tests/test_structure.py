@@ -21,7 +21,7 @@ from rdkit import Chem
 from rdkit.Chem import rdMolDescriptors
 
 from tests.conftest import shared_path
-from verify.errors import InputFileError, StructureError
+from verify.errors import CtallyWarning, InputFileError, StructureError
 from verify.model import HYDROGENS, Expectation
 from verify.structure import (
     expectation_to_dict,
@@ -309,6 +309,16 @@ def test_n_formylpiperidine_smiles() -> None:
     assert class_of(exp, 5).partner is None
 
 
+def test_lactam_not_a_rotamer_and_diethylamide_split() -> None:
+    # Common practice: N-methylpyrrolidone shows 5 signals with no rotamers (the C-N bond
+    # is in the ring); N,N-diethylacetamide shows two CH2 and two CH3 ethyl signals.
+    nmp = expected_inventory("CN1CCCC1=O")
+    assert len(nmp.classes) == 5
+    assert not any("amide-rotation" in c.flags for c in nmp.classes)
+    deaa = expected_inventory("CCN(CC)C(C)=O")
+    assert deaa.signals() == {"C": 1, "CH": 0, "CH2": 2, "CH3": 3}
+
+
 # ------------------------------------------------------------- panthenol
 
 
@@ -496,6 +506,16 @@ def test_errors() -> None:
     with pytest.raises(InputFileError, match="does not exist") as info:
         expected_inventory("missing/nothing.mol")
     assert info.value.path == Path("missing/nothing.mol")
+
+
+def test_multi_record_sdf_warns(tmp_path: Path) -> None:
+    path = tmp_path / "two.sdf"
+    with Chem.SDWriter(str(path)) as w:
+        w.write(Chem.MolFromSmiles("CCO"))
+        w.write(Chem.MolFromSmiles("CCC"))
+    with pytest.warns(CtallyWarning, match="only the first"):
+        exp = expected_inventory(path)
+    assert len(exp.classes) == 2
 
 
 def test_empty_file(tmp_path: Path) -> None:

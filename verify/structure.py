@@ -49,6 +49,7 @@ from __future__ import annotations
 import os
 import random
 import tomllib
+import warnings
 from collections.abc import Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import replace
@@ -59,7 +60,7 @@ from typing import Any
 from rdkit import Chem, rdBase
 from rdkit.Chem import rdMolDescriptors
 
-from verify.errors import InputFileError, StructureError
+from verify.errors import CtallyWarning, InputFileError, StructureError
 from verify.model import MULTIPLICITIES, CarbonClass, Coupling, Expectation, Multiplicity
 
 __all__ = [
@@ -191,7 +192,14 @@ def _read_file(path: Path) -> Chem.Mol:
         raise InputFileError(f"cannot read structure file: {exc.strerror}", path=path) from exc
     if not text.strip():
         raise InputFileError("structure file is empty; expected a molfile", path=path)
-    block = text.split("$$$$")[0]
+    records = [r for r in text.split("$$$$") if r.strip()]
+    block = records[0]
+    if len(records) > 1:
+        warnings.warn(
+            f"{path.name} holds {len(records)} structures; only the first is checked",
+            CtallyWarning,
+            stacklevel=3,
+        )
     with _captured_log() as log:
         mol = Chem.MolFromMolBlock(block, sanitize=True, removeHs=False)
     if mol is None:
@@ -1000,6 +1008,7 @@ def _fragment_classes(frag: Chem.Mol) -> list[tuple[list[int], set[str], int | N
     alpha = {
         nb.GetIdx()
         for _x, c, n in amides
+        if not frag.GetBondBetweenAtoms(c, n).IsInRing()  # lactams cannot rotate
         for nb in frag.GetAtomWithIdx(n).GetNeighbors()
         if nb.GetIdx() != c and nb.GetAtomicNum() == 6
     }
