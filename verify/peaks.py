@@ -316,8 +316,9 @@ def _merge(
         centre = float(to_ppm(top.pos))
         lines_ppm: tuple[float, ...] = ()
     else:
-        heights = np.array([abs(ln.height) for ln in group])
-        centre = float(to_ppm(float(np.average([ln.pos for ln in group], weights=heights))))
+        # first-order multiplets are symmetric: the centre is the mean line position
+        # (a height-weighted mean would follow the noise on the outer lines)
+        centre = float(to_ppm(float(np.mean([ln.pos for ln in group]))))
         lines_ppm = tuple(float(to_ppm(ln.pos)) for ln in group)
     return Peak(
         ppm=centre,
