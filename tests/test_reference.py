@@ -97,9 +97,7 @@ def test_inverted_and_mis_phased_spectra_are_referenced():
         u = (x - centre - 0.7) * MHZ / 1.0
         disp += h * u / (1 + u**2)
     phi = np.deg2rad(25.0)
-    mis = Spectrum(
-        ppm=x, intensity=s.intensity * np.cos(phi) + disp * np.sin(phi), observe_mhz=MHZ
-    )
+    mis = Spectrum(ppm=x, intensity=s.intensity * np.cos(phi) + disp * np.sin(phi), observe_mhz=MHZ)
     _, ref2 = reference_sample({"carbon": mis}, "CDCl3")
     assert ref2.offset_ppm == pytest.approx(-0.7, abs=0.02)
 
@@ -129,7 +127,8 @@ def test_d2o_has_no_carbon_signal():
 def test_dmso_septet_and_a_solvent_other_than_stated():
     # DMSO-d6 septet, J(C,D) ~21 Hz (from memory), 1:3:6:7:6:3:1, 0.25 ppm off
     d = 21.0 / MHZ
-    septet = [(39.52 + k * d, 60.0 * w) for k, w in zip(range(-3, 4), (1, 3, 6, 7, 6, 3, 1))]
+    weights = (1, 3, 6, 7, 6, 3, 1)
+    septet = [(39.52 + k * d, 60.0 * w) for k, w in zip(range(-3, 4), weights, strict=True)]
     s = spectrum(SAMPLE + septet, shift=0.25)
     _, ref = reference_sample({"carbon": s}, "DMSO-d6")
     assert ref.solvent == "DMSO-d6" and ref.offset_ppm == pytest.approx(-0.25, abs=0.02)
