@@ -604,7 +604,6 @@ def shift_set() -> dict[str, float]:
     """Range coverage and multiplicity agreement over the nmrshiftdb2-derived set."""
     path = shared_path("shifts", "nmr8k-public.sdf.gz")
     inside = total = agree = letters = 0
-    unreadable = 0
     letter_of = {"S": "C", "D": "CH", "T": "CH2", "Q": "CH3"}
     with gzip.open(path) as fh:
         supplier = Chem.ForwardSDMolSupplier(fh, removeHs=False)
@@ -613,8 +612,7 @@ def shift_set() -> dict[str, float]:
         with rdBase.BlockLogs():
             mols = list(supplier)
     for mol in mols:
-        if mol is None:
-            unreadable += 1
+        if mol is None:  # RDKit rejects a few molfiles (e.g. pentavalent nitro N)
             continue
         spectra = [mol.GetProp(k) for k in mol.GetPropNames() if k.startswith("Spectrum 13C")]
         if not spectra:
@@ -641,18 +639,20 @@ def shift_set() -> dict[str, float]:
         "coverage": inside / total,
         "agreement": agree / letters,
         "total": total,
-        "unreadable": unreadable,
     }
 
 
 def test_shift_ranges_cover_assigned_shifts(shift_set: dict[str, float]) -> None:
     # nmrshiftdb2 via CASCADE (Steinbeck 2003; Guan 2021), ../shared: >= 97 % of the
-    # assigned carbons fall inside their class's handbook range (measured 99.4 %).
+    # assigned carbons fall inside their class's handbook range (measured 99.55 % of
+    # 16,676; some bounds were widened after looking at this same set, so this is an
+    # in-sample figure, see shift_ranges.toml).
     assert shift_set["total"] > 10000
     assert shift_set["coverage"] >= 0.97
 
 
 def test_multiplicities_agree_with_recorded_letters(shift_set: dict[str, float]) -> None:
     # Same set: ~1 % of the recorded S/D/T/Q letters disagree with the structure
-    # (LICENSES.md); the multiplicities by attached protium must agree with >= 98 %.
+    # (LICENSES.md); the multiplicities by attached protium must agree with >= 98 %
+    # (measured 99.57 %).
     assert shift_set["agreement"] >= 0.98
