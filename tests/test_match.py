@@ -138,8 +138,13 @@ def test_partner_pair_coincides_cheaply() -> None:
 
 
 def test_overlap_evidence_from_intensity() -> None:
-    # Two different CH3 classes on one peak: supported when the peak holds two carbons.
-    classes = (cls((0,), "CH3", 5, 35), cls((1,), "CH3", 5, 35), cls((2,), "C", 160, 180))
+    # Two CH3 classes of different environments on one peak: supported when the peak is
+    # tall enough for two carbons, unsupported when it is not.
+    classes = (
+        CarbonClass((0,), "CH3", "sp3-CH3", (5, 35)),
+        CarbonClass((1,), "CH3", "CH3-CO", (5, 35)),
+        cls((2,), "C", 160, 180),
+    )
     exp = Expectation("x", "x", classes)
     tall = obs(sig(21.0, "CH3", carbons=2, height=20.0), sig(171.0, "C"))
     short = obs(sig(21.0, "CH3"), sig(171.0, "C"))
@@ -148,6 +153,20 @@ def test_overlap_evidence_from_intensity() -> None:
     assert overlap_kind(exp, tall.signals[a_tall.signal], a_tall.classes) == "supported"
     assert overlap_kind(exp, short.signals[a_short.signal], a_short.classes) == "unsupported"
     assert a_short.cost > a_tall.cost
+    # Alike carbons (one environment label) coincide often: possible, not unsupported.
+    alike = Expectation("x", "x", (cls((0,), "CH3", 5, 35), cls((1,), "CH3", 5, 35)))
+    (a_alike,) = assign(alike, obs(sig(21.0, "CH3")))
+    assert overlap_kind(alike, short.signals[0], a_alike.classes) == "possible"
+    # With predictions, they decide: 3 ppm apart is not a plausible coincidence.
+    apart = Expectation(
+        "x",
+        "x",
+        (
+            cls((0,), "CH3", 5, 35, predicted_ppm=19.5),
+            cls((1,), "CH3", 5, 35, predicted_ppm=22.5),
+        ),
+    )
+    assert overlap_kind(apart, short.signals[0], (0, 1)) == "unsupported"
 
 
 def test_cf_doublet_prefers_fluorine_coupled_class() -> None:

@@ -12,8 +12,9 @@ The assignment is the minimum-cost matching of sample signals to carbon classes 
 The pair cost of a class on a signal adds (see :func:`pair_cost`): multiplicity agreement
 weighted by the call's confidence (a candidate list such as "CH or CH3" is partly fine; no
 call is no information); the distance outside the class's handbook shift range (zero inside,
-quadratic outside); the distance from a predicted shift when there is one (Huber, in units of
-the prediction's standard deviation); heteronuclear splitting agreement (a C–F doublet wants a
+quadratic outside); the distance from a predicted shift when there is one (Huber in units of
+the prediction's standard deviation, capped: a predictor's outliers must not stop a carbon
+from taking the only peak left for it); heteronuclear splitting agreement (a C–F doublet wants a
 fluorine-coupled class); and a weak intensity hint.  Costs and weights live in
 :class:`verify.verdict.VerdictConfig`.
 
@@ -141,7 +142,7 @@ def pair_cost(cls: CarbonClass, signal: Signal, config: VerdictConfig | None = N
         sd = cls.prediction_sd or cfg.prediction_sd_ppm
         x = abs(signal.ppm - cls.predicted_ppm) / max(sd, 1e-6)
         k = cfg.prediction_huber
-        cost += 0.5 * x * x if x <= k else k * x - 0.5 * k * k
+        cost += min(cfg.prediction_cap, 0.5 * x * x if x <= k else k * x - 0.5 * k * k)
     nucleus = _PATTERN_NUCLEUS.get(signal.pattern or "")
     if nucleus is not None:
         if not _coupled(cls, nucleus)[0]:
@@ -179,10 +180,13 @@ def overlap_kind(
     str or None
         None for a single class; ``"partner"`` when every extra class is the
         diastereotopic/rotamer partner of another one there; ``"supported"`` when the
-        signal is taller than its largest class alone would make it, is mixed in the
-        edited spectra, or the classes' predictions lie within
-        ``overlap_prediction_ppm`` of each other and within one sigma of the signal;
-        else ``"unsupported"``.
+        signal is tall enough for all it holds (``Signal.carbons`` against
+        :func:`relative_carbons`, a quarter carbon of slack), or mixed in the edited spectra
+        with a matching composition, and every prediction lies within two sigma of it;
+        ``"possible"`` when only the intensity (or mixing) supports it, or the predictions
+        (within ``overlap_prediction_ppm`` of each other and two sigma of the signal), or,
+        without predictions, when the classes share one environment label; else
+        ``"unsupported"``.
 
     """
     if len(classes) < 2:
@@ -198,16 +202,30 @@ def overlap_kind(
     }
     if len(classes) - len(pairs) <= 1:
         return "partner"
-    if signal.mixed or signal.carbons > max(c.carbons for c in cls):
+    rel = relative_carbons(expectation)
+    full = sum(rel[k] for k in classes) <= _capacity(signal) or (
+        signal.mixed and {c.multiplicity for c in cls} <= set(signal.candidates)
+    )
+    some = full or signal.mixed or signal.carbons >= 2
+    preds = [(c.predicted_ppm, c.prediction_sd or cfg.prediction_sd_ppm) for c in cls]
+    known = [(p, sd) for p, sd in preds if p is not None]
+    near_signal = all(abs(p - signal.ppm) <= 2.0 * sd for p, sd in known)
+    if full and near_signal:
         return "supported"
-    preds = [c.predicted_ppm for c in cls]
-    if all(p is not None for p in preds):
-        near = [p for p in preds if p is not None]
-        if max(near) - min(near) <= cfg.overlap_prediction_ppm and all(
-            abs(p - signal.ppm) <= (c.prediction_sd or cfg.prediction_sd_ppm)
-            for p, c in zip(near, cls, strict=True)
+    if some:
+        return "possible"
+    if len(known) == len(cls):
+        # Predictions for every class: they must nearly coincide and fit the signal.
+        centres = [p for p, _ in known]
+        if max(centres) - min(centres) <= cfg.overlap_prediction_ppm and all(
+            abs(p - signal.ppm) <= 2.0 * sd for p, sd in known
         ):
-            return "supported"
+            return "possible"
+        return "unsupported"
+    # No predictions: alike carbons (the same environment label) coincide often, e.g.
+    # several aryl OCH3 at 56 ppm or phenyl CH at 128-129 ppm (common practice).
+    if len({c.environment for c in cls}) == 1:
+        return "possible"
     return "unsupported"
 
 
@@ -221,8 +239,33 @@ def _unassigned_cost(sig: Signal, cfg: VerdictConfig) -> float:
     return cfg.unassigned_cost * min(1.0, max(0.25, sig.snr / cfg.weak_snr))
 
 
-def _overlap_cost(sig: Signal, cfg: VerdictConfig) -> float:
-    return cfg.supported_overlap_cost if (sig.mixed or sig.carbons >= 2) else cfg.overlap_cost
+_SLACK = 0.25  # relative heights are estimates: a quarter carbon over is not evidence
+_EXCESS_UNIT = 0.5  # excess (relative carbons) that costs the step to a full overlap
+
+
+def relative_carbons(expectation: Expectation) -> list[float]:
+    """Each class's expected height relative to a typical class of its multiplicity.
+
+    ``Signal.carbons`` is how tall a signal is against its class-mates (1 for a typical
+    one), so a class counts as ``carbons / median carbons of its multiplicity``: in a
+    molecule whose CH classes all hold two carbons, each is 1.
+    """
+    by_mult: dict[str, list[int]] = {}
+    for c in expectation.classes:
+        by_mult.setdefault(c.multiplicity, []).append(c.carbons)
+    typical = {m: float(np.median(v)) for m, v in by_mult.items()}
+    return [c.carbons / typical[c.multiplicity] for c in expectation.classes]
+
+
+def _capacity(sig: Signal) -> float:
+    """Relative carbons a signal can hold without intensity cost."""
+    return max(float(sig.carbons), 2.0 if sig.mixed else 0.0) + _SLACK
+
+
+def _overlap_penalty(sig: Signal, extra: int, rel_total: float, cfg: VerdictConfig) -> float:
+    excess = max(0.0, rel_total - _capacity(sig))
+    unit = (cfg.overlap_cost - cfg.supported_overlap_cost) / _EXCESS_UNIT
+    return extra * cfg.supported_overlap_cost + excess * unit
 
 
 def assign(
@@ -296,7 +339,9 @@ def assign(
             if (a, j) in pair_index and (b, j) in pair_index:
                 zs.append((pair_index[(a, j)], pair_index[(b, j)], j))
     nz = len(zs)
-    y0, o0, z0 = nx, nx + ns, nx + 2 * ns
+    # o: extra classes on a signal; e: relative carbons held beyond its intensity.
+    y0, o0, p0, z0 = nx, nx + ns, nx + 2 * ns, nx + 3 * ns
+    rel = relative_carbons(expectation)
     nvar = z0 + nz
 
     obj = np.zeros(nvar)
@@ -304,7 +349,8 @@ def assign(
         obj[p] = c - _missing_cost(classes[k], cfg)
     for j in sample:
         obj[y0 + col_of[j]] = -_unassigned_cost(sigs[j], cfg)
-        obj[o0 + col_of[j]] = _overlap_cost(sigs[j], cfg)
+        obj[o0 + col_of[j]] = cfg.supported_overlap_cost
+        obj[p0 + col_of[j]] = (cfg.overlap_cost - cfg.supported_overlap_cost) / _EXCESS_UNIT
     for q, _ in enumerate(zs):
         obj[z0 + q] = cfg.partner_cost
 
@@ -343,15 +389,30 @@ def assign(
             -np.inf,
             1.0,
         )
+    for j in sample:
+        # Relative carbons held beyond the signal's capacity (intensity evidence).
+        xs = by_signal.get(j, [])
+        # A coinciding partner pair counts as one class here too.
+        add(
+            [(p, rel[pairs[p][0]]) for p in xs]
+            + [(p0 + col_of[j], -1.0)]
+            + [
+                (z0 + q, -min(rel[pairs[zs[q][0]][0]], rel[pairs[zs[q][1]][0]]))
+                for q in range(nz)
+                if zs[q][2] == j
+            ],
+            -np.inf,
+            _capacity(sigs[j]),
+        )
     for q, (pa, pb, _) in enumerate(zs):
         add([(z0 + q, 1.0), (pa, -1.0)], -np.inf, 0.0)
         add([(z0 + q, 1.0), (pb, -1.0)], -np.inf, 0.0)
 
     a = coo_array((vals, (rows, cols)), shape=(len(lb), nvar)).tocsr()
     integrality = np.ones(nvar)
-    integrality[o0 : o0 + ns] = 0  # o is integral at the optimum anyway
+    integrality[o0:z0] = 0  # integral at the optimum anyway
     upper = np.ones(nvar)
-    upper[o0 : o0 + ns] = np.inf
+    upper[o0:z0] = np.inf
     res = milp(
         obj,
         constraints=LinearConstraint(a, np.array(lb), np.array(ub)),
@@ -380,10 +441,16 @@ def assign(
             labels = " and ".join(classes[k].label for k in ks)
             n_pairs = sum(1 for q in zs if q[2] == j and res.x[z0 + zs.index(q)] > 0.5)
             extra = len(ks) - 1 - n_pairs
-            cost += extra * _overlap_cost(sigs[j], cfg) + n_pairs * cfg.partner_cost
+            rel_total = sum(rel[k] for k in ks) - sum(
+                min(rel[pairs[zs[q][0]][0]], rel[pairs[zs[q][1]][0]])
+                for q in range(nz)
+                if zs[q][2] == j and res.x[z0 + q] > 0.5
+            )
+            cost += _overlap_penalty(sigs[j], extra, rel_total, cfg) + n_pairs * cfg.partner_cost
             note = {
                 "partner": f"coincident pair: {labels} (diastereotopic or rotamer partners)",
-                "supported": f"overlap: {labels} share this signal (intensity or shifts agree)",
+                "supported": f"overlap: {labels} share this signal (intensity and shifts agree)",
+                "possible": f"possible overlap: {labels} share this signal",
                 "unsupported": f"overlap without evidence: {labels} share this signal, but it is "
                 "no taller than one carbon",
             }[kind]

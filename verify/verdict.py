@@ -23,11 +23,17 @@ multiplicity-unexplained fail/rev an unexplained signal whose confident call fit
                                   of the structure at all (review when weak)
 multiplicity-mismatch    fail/rev an assigned signal whose call contradicts its class
                                   (fail when the call is confident)
-shift-far-outside        fail     an assigned carbon far outside its class's shift range
-shift-outside            review   an assigned carbon moderately outside its range
-shift-prediction         review   an assigned carbon far from its predicted shift
+shift-far-outside        fail/rev an assigned carbon far outside its class's shift range
+                                  (review when its own prediction agrees with the shift)
+shift-outside            rev/info an assigned carbon moderately outside its range (info
+                                  when its own prediction agrees with the shift)
+shift-prediction         info     an assigned carbon far from its predicted shift (the
+                                  prediction still weighs in the assignment and score;
+                                  predictors miss by >10 ppm too often to drive a verdict)
 coupling-mismatch        review   a C–F/C–P multiplet on a class without that coupling
-overlap                  review   classes share a signal that is tall/mixed enough for it
+overlap                  info/rev classes share a signal: info when it is tall (or mixed)
+                                  enough for all of them and the predictions agree,
+                                  review when that is only partly so
 overlap-unsupported      review   such sharing without intensity evidence, within the size
                                   allowance (beyond it: count-mismatch fail)
 coincident-pair          info     a diastereotopic/rotamer pair appears as one signal
@@ -258,10 +264,15 @@ def judge(
                 )
             d = range_distance(cls, s.ppm)
             lo, hi = cls.shift_range
+            # A prediction for this very structure that agrees with the observed shift
+            # says the handbook range is too narrow here: one severity step milder.
+            vouched = cls.predicted_ppm is not None and abs(s.ppm - cls.predicted_ppm) <= (
+                2.0 * (cls.prediction_sd or cfg.prediction_sd_ppm)
+            )
             if d > cfg.far_outside_ppm:
                 fx.add(
                     "shift-far-outside",
-                    "fail",
+                    "review" if vouched else "fail",
                     f"{cls.label} ({cls.environment}) is expected at {lo:g}–{hi:g} ppm, but its "
                     f"best signal is at {_ppm(s.ppm)}, {d:.1f} ppm outside.",
                     cls.atoms,
@@ -270,7 +281,7 @@ def judge(
             elif d > cfg.outside_review_ppm:
                 fx.add(
                     "shift-outside",
-                    "review",
+                    "info" if vouched else "review",
                     f"{cls.label} ({cls.environment}) is expected at {lo:g}–{hi:g} ppm; its "
                     f"signal at {_ppm(s.ppm)} is {d:.1f} ppm outside.",
                     cls.atoms,
@@ -281,7 +292,7 @@ def judge(
                 if abs(s.ppm - cls.predicted_ppm) > cfg.prediction_review_sd * sd:
                     fx.add(
                         "shift-prediction",
-                        "review",
+                        "info",
                         f"{cls.label} is predicted at {_ppm(cls.predicted_ppm)} "
                         f"(± {sd:.1f}), but is assigned to {_ppm(s.ppm)}.",
                         cls.atoms,
@@ -319,9 +330,18 @@ def judge(
         elif kind == "supported":
             fx.add(
                 "overlap",
+                "info",
+                f"{labels} overlap at {_ppm(s.ppm)}: the signal is tall enough for "
+                f"{s.carbons} carbons and the shifts agree.",
+                atoms,
+                (s.ppm,),
+            )
+        elif kind == "possible":
+            fx.add(
+                "overlap",
                 "review",
-                f"{labels} are taken to overlap at {_ppm(s.ppm)} (the signal is tall or "
-                "mixed enough for it); confirm, e.g. in HSQC.",
+                f"{labels} are taken to overlap at {_ppm(s.ppm)}, which the intensity or "
+                "the predicted shifts only partly support; confirm, e.g. in HSQC.",
                 atoms,
                 (s.ppm,),
             )
