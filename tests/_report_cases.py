@@ -98,6 +98,7 @@ def make_verdict(
     solvent_label: str = "CDCl3",
     score: float = 0.9,
     impurity_as_sample: bool = False,
+    solvent_lines: bool = False,
 ) -> Verdict:
     """A full hand-made Verdict with carbon, DEPT-90 and DEPT-135 spectra.
 
@@ -136,9 +137,10 @@ def make_verdict(
         )
     for line in SOLVENT:
         carbon_lines.append((line, 1.2))
-    signals.append(
-        Signal(ppm=77.16, multiplicity=None, confidence=1.0, role="solvent", label=solvent_label)
-    )
+    for line in SOLVENT if solvent_lines else (77.16,):  # each line its own signal, or one
+        signals.append(
+            Signal(ppm=line, multiplicity=None, confidence=1.0, role="solvent", label=solvent_label)
+        )
     for imp_name, shift in (impurity or {}).items():
         carbon_lines.append((shift, 0.08))
         if impurity_as_sample:

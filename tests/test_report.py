@@ -469,3 +469,41 @@ def test_crowded_region_gets_an_expansion() -> None:
     svg = parse(spectrum_stack_svg([("carbon", spec)], dense + sparse, compact=windows))
     texts = {n.text for n in svg.find_all("text")}
     assert "C1" in texts and "C1 CH2" not in texts and "C31 CH" in texts
+
+
+def test_solvent_multiplet_is_one_label_and_one_row() -> None:
+    # CDCl3 triplet, 1J(C,D) ≈ 32 Hz (from memory): three lines 0.32 ppm apart at 100.6 MHz
+    v = make_verdict(solvent_lines=True)
+    assert sum(s.role == "solvent" for s in v.observation.signals) == 3
+    doc = parse(render_html(v))
+    marks = doc.by_id("spectra").find_all("g", data_status="solvent")
+    assert len(marks) == 1 and abs(float(marks[0].attrs["data-ppm"] or 0) - 77.16) < 0.01
+    rows = doc.by_id("solvent-signals").find_all("tr", data_role="solvent")
+    assert len(rows) == 1 and "3 lines" in rows[0].text
+
+
+def test_ids_unique_and_references_resolve_with_expansions() -> None:
+    from verify.draw import crowded_windows
+
+    v = make_verdict()
+    spec = v.observation.peaksets["carbon"].spectrum
+    assert spec is not None
+    dense = [Mark(ppm=20.0 + 1.1 * i, text=f"C{i + 1} CH2", short=f"C{i + 1}") for i in range(18)]
+    windows = crowded_windows(dense, 10.0, 160.0)
+    page = "".join(
+        [spectrum_stack_svg([("carbon", spec)], dense, compact=windows)]
+        + [spectrum_stack_svg([("carbon", spec)], dense, ppm_range=w) for w in windows]
+    )
+    doc = parse(page)
+    ids = [n.attrs["id"] for n in doc.iter() if n.attrs.get("id")]
+    assert len(ids) == len(set(ids)) >= 2
+    for svg in doc.find_all("svg"):
+        own = {n.attrs.get("id") for n in svg.iter()}
+        for n in svg.iter():
+            ref = re.fullmatch(r"url\(#(.+)\)", n.attrs.get("clip-path") or "")
+            if ref:
+                assert ref.group(1) in own  # each stack clips with its own rectangles
+    # and the real report's page as a whole
+    full = parse(render_html(make_verdict(findings=(REVIEW,), verdict="review")))
+    ids = [n.attrs["id"] for n in full.iter() if n.attrs.get("id")]
+    assert len(ids) == len(set(ids))

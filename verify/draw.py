@@ -83,7 +83,7 @@ PANEL_NAMES: dict[str, tuple[str, str]] = {
     "dept90": ("DEPT-90", "CH up"),
     "dept135": ("DEPT-135", "CH, CH3 up · CH2 down"),
     "dept45": ("DEPT-45", "all protonated up"),
-    "apt": ("APT", "sign as stored"),
+    "apt": ("APT", "C, CH2 opposite CH, CH3"),
 }
 
 
@@ -391,6 +391,8 @@ def spectrum_stack_svg(
     lo, hi = ppm_range if ppm_range is not None else _window([s for _, s in traces], marks)
     left, right = 104.0, 14.0
     plot_w = width - left - right
+    # ids must be unique in the whole page, which may hold several stacks
+    uid = f"clip{round(lo * 100)}-{round(hi * 100)}".replace("-", "_").replace(".", "_")
 
     def px(ppm: float) -> float:
         return left + (hi - ppm) / (hi - lo) * plot_w
@@ -432,7 +434,7 @@ def spectrum_stack_svg(
     out.append("<defs>")
     for i, (h, y0) in enumerate(zip(heights, y0s, strict=True)):
         out.append(
-            f'<clipPath id="clip-p{i}"><rect x="{left:.1f}" y="{y0:.1f}" '
+            f'<clipPath id="{uid}-p{i}"><rect x="{left:.1f}" y="{y0:.1f}" '
             f'width="{plot_w:.1f}" height="{h:.1f}"/></clipPath>'
         )
     out.append("</defs>")
@@ -475,7 +477,7 @@ def spectrum_stack_svg(
                 f"{px(a):.1f},{base - b / scale * amp:.1f}" for a, b in zip(xs, ys, strict=True)
             )
             out.append(
-                f'<polyline clip-path="url(#clip-p{i})" fill="none" stroke="{PALETTE["trace"]}" '
+                f'<polyline clip-path="url(#{uid}-p{i})" fill="none" stroke="{PALETTE["trace"]}" '
                 f'stroke-width="0.9" stroke-linejoin="round" points="{pts}"/>'
             )
         name, sub = PANEL_NAMES.get(role, (role, ""))

@@ -332,6 +332,64 @@ def _mark_for(v: _SignalView) -> Mark:
     return Mark(ppm=s.ppm, text=text, status=v.status, detail=detail, short=short)
 
 
+def _groups(views: Sequence[_SignalView], observe_mhz: float) -> list[list[_SignalView]]:
+    """Signals in shift order, the lines of one solvent multiplet gathered into one group.
+
+    Neighbouring solvent lines of the same name closer than 40 Hz belong together:
+    one-bond C–D couplings of the common solvents are 19–32 Hz (Fulmer et al.,
+    Organometallics 2010, 29, 2176; from memory), so a multiplet's lines are one J apart.
+    """
+    gap_ppm = 40.0 / observe_mhz
+    groups: list[list[_SignalView]] = []
+    for v in sorted(views, key=lambda v: -v.signal.ppm):
+        last = groups[-1][-1] if groups else None
+        if (
+            last is not None
+            and v.status == "solvent"
+            and last.status == "solvent"
+            and v.name == last.name
+            and last.signal.ppm - v.signal.ppm <= gap_ppm
+        ):
+            groups[-1].append(v)
+        else:
+            groups.append([v])
+    return groups
+
+
+def _group_mark(group: Sequence[_SignalView]) -> Mark:
+    if len(group) == 1:
+        return _mark_for(group[0])
+    centre = sum(v.signal.ppm for v in group) / len(group)
+    lo, hi = group[-1].signal.ppm, group[0].signal.ppm
+    return Mark(
+        ppm=centre,
+        text=f"{group[0].name} (solvent)",
+        status="solvent",
+        detail=f"{group[0].name}: {len(group)} lines, {hi:.2f}–{lo:.2f} ppm (solvent multiplet)",
+    )
+
+
+def _other_rows(groups: Sequence[Sequence[_SignalView]], loose: set[int]) -> list[dict[str, str]]:
+    rows = []
+    for g in groups:
+        v = g[0]
+        if not (v.status in ("solvent", "artifact") or v.index in loose):
+            continue
+        centre = sum(x.signal.ppm for x in g) / len(g)
+        shift = f"{centre:.2f}"
+        if len(g) > 1:
+            shift += f" ({len(g)} lines, {g[0].signal.ppm:.2f}–{g[-1].signal.ppm:.2f})"
+        rows.append(
+            {
+                "status": v.status,
+                "name": v.name or v.status,
+                "shift": shift,
+                "reason": v.signal.reason,
+            }
+        )
+    return rows
+
+
 def _traces(verdict: Verdict) -> list[tuple[str, Spectrum]]:
     out = []
     for role in PANEL_ORDER:
@@ -577,9 +635,10 @@ def render_html(
     """
     exp, obs = verdict.expectation, verdict.observation
     views = _signal_views(verdict)
-    marks = [_mark_for(v) for v in views]
     notes = dict.fromkeys(obs.inverted, "stored phase inverted, corrected")
     traces = _traces(verdict)
+    groups = _groups(views, traces[0][1].observe_mhz if traces else 100.0)
+    marks = [_group_mark(g) for g in groups]
     stack, expansions = "", []
     if traces:
         lo, hi = stack_window([t for _, t in traces], marks)
@@ -641,7 +700,7 @@ def render_html(
             }
             for imp in verdict.impurities
         ],
-        "others": [v for v in views if v.status in ("solvent", "artifact") or v.index in loose],
+        "others": _other_rows(groups, loose),
         "candidates": _candidate_rows(verdict, candidates),
         "processing": _processing_rows(verdict),
         "referencing": obs.referencing,
