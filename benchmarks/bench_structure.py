@@ -42,6 +42,15 @@ STRUCTURES = {
     "polyketide": "CC" + "[C@H](O)[C@@H](C)" * 24 + "C(=O)O",
     # the same chain without stereo (unspecified centres get a fixed configuration)
     "polyketide-flat": "CC" + "C(O)C(C)" * 24 + "C(=O)O",
+    # beta-cyclodextrin: seven-fold symmetric, 35 stereocentres
+    "beta-cyclodextrin": "OC[C@H]1O[C@@H]2O[C@@H]3[C@@H](CO)O[C@H](O[C@@H]4[C@@H](CO)O[C@H]"
+    "(O[C@@H]5[C@@H](CO)O[C@H](O[C@@H]6[C@@H](CO)O[C@H](O[C@@H]7[C@@H](CO)O[C@H]"
+    "(O[C@@H]8[C@@H](CO)O[C@H](O[C@H]1[C@H](O)[C@H]2O)[C@H](O)[C@H]8O)[C@H](O)[C@H]7O)"
+    "[C@H](O)[C@H]6O)[C@H](O)[C@H]5O)[C@H](O)[C@H]4O)[C@H](O)[C@H]3O",
+    # C60: one class of 60
+    "C60": "c12c3c4c5c1c6c7c8c2c9c%10c3c%11c%12c4c%13c%14c5c%15c6c%16c7c%17c%18c8c9c%19c%20"
+    "c%10c%11c%21c%22c%12c%13c%23c%24c%14c%15c%25c%16c%26c%17c%27c%18c%19c%28c%20c%21c%29"
+    "c%22c%23c%30c%24c%25c%26c%31c%27c%28c%29c%30%31",
     # 2:1 salt of a large zwitterion-free cation with a dicarboxylate
     "salt": "CCCCCCCCCCCCCCCC[N+](C)(C)C.CCCCCCCCCCCCCCCC[N+](C)(C)C.O=C([O-])c1ccc(cc1)C(=O)[O-]",
 }

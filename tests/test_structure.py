@@ -143,6 +143,18 @@ def test_sucrose_inventory() -> None:
     assert sig == {"C": 1, "CH": 8, "CH2": 3, "CH3": 0}
 
 
+def test_large_symmetric_molecules() -> None:
+    # Common practice: beta-cyclodextrin shows 6 carbon signals (C1-C6), C60 one (143 ppm).
+    from benchmarks.bench_structure import STRUCTURES
+
+    cd = expected_inventory(STRUCTURES["beta-cyclodextrin"])
+    assert cd.signals() == {"C": 0, "CH": 5, "CH2": 1, "CH3": 0}
+    assert all(c.carbons == 7 for c in cd.classes)
+    c60 = expected_inventory(STRUCTURES["C60"])
+    assert len(c60.classes) == 1 and c60.classes[0].carbons == 60
+    assert c60.classes[0].shift_range[0] <= 143.2 <= c60.classes[0].shift_range[1]
+
+
 def test_dmf_two_n_methyl_classes() -> None:
     # Gottlieb et al., J. Org. Chem. 1997, 62, 7512 and Fulmer et al., Organometallics
     # 2010, 29, 2176: DMF shows CHO 162.6 and two N-CH3 signals (36.5, 31.4 ppm in CDCl3).

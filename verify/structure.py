@@ -121,6 +121,13 @@ def _captured_log() -> Iterator[list[str]]:
                     messages.append(text)
 
 
+def _is_file(text: str) -> bool:
+    try:
+        return Path(text).is_file()
+    except (OSError, ValueError):  # too long for a file name, or a NUL byte: a SMILES
+        return False
+
+
 def _looks_like_file(text: str) -> bool:
     return text.lower().endswith(_FILE_SUFFIXES)
 
@@ -253,7 +260,7 @@ def load_structure(structure: str | os.PathLike[str] | Chem.Mol) -> Chem.Mol:
         text = structure.strip()
         if not text:
             raise StructureError("the structure is an empty string; give a SMILES or a file")
-        if Path(text).is_file() or (_looks_like_file(text) and " " not in text):
+        if _is_file(text) or (_looks_like_file(text) and " " not in text):
             mol = _read_file(Path(text))
         else:
             mol = _parse_smiles(text)
