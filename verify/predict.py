@@ -353,6 +353,12 @@ def _aromatic(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> _Prediction | No
         if exo is not None:
             return _oxo_ring(mol, atom, five[0], exo)
         return _five_ring(mol, atom, five[0], rings)
+    if own:  # three-, four-, seven-membered aromatic rings: typical values only
+        other = t["aromatic"]["other_rings"]
+        oxo = _exo_double(mol, atom, own[0]) is not None
+        size = "7" if len(own[0]) >= 7 else "small"
+        value = other[f"{size}_oxo" if oxo else size]
+        return _Prediction(float(value), sd["other_ring"], "aromatic-other")
     return None
 
 
@@ -434,12 +440,14 @@ def _ipso(mol: Chem.Mol, y: int, z: Chem.Atom, tabled: float, next_to_n: bool) -
     t = _tables()["aromatic"]
     if z.GetAtomicNum() == 6 and _is_alkyl(mol, z):
         beta = t["ipso_beta"]
-        terms = []
+        terms: list[float] = []
+        gammas: list[float] = []
         for w in _heavy(z, y):
             wz = w.GetAtomicNum()
             if wz == 6:
                 if _is_alkyl(mol, w):
                     key = "C"
+                    gammas.extend(_ipso_gamma(mol, z.GetIdx(), w))
                 elif w.GetIsAromatic():
                     key = "aryl"
                 elif _is_acyl(mol, w):
@@ -459,13 +467,26 @@ def _ipso(mol: Chem.Mol, y: int, z: Chem.Atom, tabled: float, next_to_n: bool) -
             else:
                 key = w.GetSymbol()
             terms.append(beta.get(key, 0.0))
+        value = t["substituents"]["CH3"][0] + sum(gammas)
         if terms:
-            damp = t["ipso_damping"][min(len(terms), 3) - 1]
-            return float(t["substituents"]["CH3"][0] + damp * sum(terms))
-        return float(t["substituents"]["CH3"][0])
+            value += t["ipso_damping"][min(len(terms), 3) - 1] * sum(terms)
+        return float(value)
     if next_to_n and z.GetAtomicNum() != 6:
         return float(tabled * t["ipso_next_to_n"])
     return tabled
+
+
+def _ipso_gamma(mol: Chem.Mol, z: int, w: Chem.Atom) -> list[float]:
+    """Gamma terms of the ipso increment: atoms on the carbon beta to the ring."""
+    gamma = _tables()["aromatic"]["ipso_gamma"]
+    out = []
+    for v in _heavy(w, z):
+        vz = v.GetAtomicNum()
+        if vz == 6:
+            out.append(gamma["acyl"] if _is_acyl(mol, v) else gamma["C"])
+        else:
+            out.append(gamma.get(v.GetSymbol(), gamma["other"]))
+    return out
 
 
 def _five_key(mol: Chem.Mol, ring: tuple[int, ...], start: int) -> str:
@@ -482,10 +503,15 @@ def _five_ring(
     t = _tables()
     arom = t["aromatic"]
     sd = t["sd"]
-    base = arom["five"].get(_five_key(mol, ring, atom.GetIdx()))
-    if base is None:
-        return None
     order = _ordered(mol, ring, atom.GetIdx())
+    base = arom["five"].get(_five_key(mol, ring, atom.GetIdx()))
+    base_sd = sd["five_ring"]
+    if base is None:  # a ring not in the table: by the number of ring heteroatoms
+        generic = arom["five_generic"]
+        near = sum(mol.GetAtomWithIdx(i).GetAtomicNum() != 6 for i in (order[1], order[-1]))
+        far = sum(mol.GetAtomWithIdx(i).GetAtomicNum() != 6 for i in order[2:-1])
+        base = generic["base"] + generic["adjacent"] * near + generic["further"] * far
+        base_sd = sd["five_ring_generic"]
     ppm = float(base)
     n = 0
     scale = arom["five_ring_scale"]
@@ -502,7 +528,7 @@ def _five_ring(
                 ipso = _ipso(mol, y_idx, z, incr[0], False)
                 ppm += (ipso, incr[1], 0.5 * (incr[2] + incr[3]))[d] * scale[d]
             n += 1
-    return _Prediction(ppm, math.hypot(sd["five_ring"], sd["per_increment"] * math.sqrt(n)), "five")
+    return _Prediction(ppm, math.hypot(base_sd, sd["per_increment"] * math.sqrt(n)), "five")
 
 
 def _oxo_ring(mol: Chem.Mol, atom: Chem.Atom, ring: tuple[int, ...], exo: Chem.Atom) -> _Prediction:
@@ -539,6 +565,10 @@ def _alkene(mol: Chem.Mol, atom: Chem.Atom, partner: Chem.Atom, rings: _Rings) -
     ppm = a["base"]
     n = 0
     side_alpha = []
+    acceptors = set(a["acceptors"])
+    own_keys = [_group(mol, x, z)[0] for z in _heavy(atom, y) if not _is_alkyl(mol, z)]
+    other_keys = [_group(mol, y, z)[0] for z in _heavy(partner, x) if not _is_alkyl(mol, z)]
+    own_plain = bool(_heavy(atom, y)) and not acceptors.intersection(own_keys)
     for centre, other, own in ((atom, y, True), (partner, x, False)):
         suffix = "" if own else "_other"
         column = 0 if own else 1
@@ -558,10 +588,18 @@ def _alkene(mol: Chem.Mol, atom: Chem.Atom, partner: Chem.Atom, rings: _Rings) -
                         visited.add(v.GetIdx())
                         ppm += a["gamma" + suffix]
             else:
-                incr, _ = _lookup(a["substituents"], _group(mol, centre.GetIdx(), z))
-                ppm += incr[column]
+                keys = _group(mol, centre.GetIdx(), z)
+                incr, _ = _lookup(a["substituents"], keys)
+                damp = (
+                    a["conjugated_damping"]
+                    if not own and own_plain and keys[0] in ("aryl", "vinyl")
+                    else 1.0
+                )
+                ppm += incr[column] * damp
             n += 1
         side_alpha.append(n_alpha)
+    if acceptors.intersection(other_keys):
+        ppm += a["push_pull"] * side_alpha[0]
     size = _ring_with(rings, x, y)
     if size is not None:
         ppm += a["ring"].get(str(size), 0.0)
