@@ -227,6 +227,7 @@ def load_candidates(
     UsageError
         When no structure is given at all.
     """
+    from verify.predict import predict_shifts
     from verify.structure import expected_inventory
 
     out: list[Expectation] = []
@@ -241,7 +242,7 @@ def load_candidates(
         out.extend(_read_candidates_file(Path(candidates_file)))
     if not out:
         raise UsageError("no structure given: set `structure` in the sample file or pass --structure")
-    return out
+    return [predict_shifts(e) for e in out]
 
 
 def _read_candidates_file(path: Path) -> list[Expectation]:
