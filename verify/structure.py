@@ -89,8 +89,13 @@ _CCW = Chem.ChiralType.CHI_TETRAHEDRAL_CCW
 
 @cache
 def _shift_ranges() -> dict[str, tuple[float, float]]:
+    """Environment (or ``environment.multiplicity``) -> (lo, hi) in ppm."""
     with open(_DATA / "shift_ranges.toml", "rb") as fh:
-        table = tomllib.load(fh)["ranges"]
+        data = tomllib.load(fh)
+    table = dict(data["ranges"])
+    for env, by_mult in data.get("by_multiplicity", {}).items():
+        for mult, v in by_mult.items():
+            table[f"{env}.{mult}"] = v
     return {k: (float(v[0]), float(v[1])) for k, v in table.items()}
 
 
@@ -814,6 +819,14 @@ def _aromatic_env(mol: Chem.Mol, atom: Chem.Atom) -> str:
             for n in ring_het
         ):
             return "heteroaromatic-C=N"
+        ring_z = {n.GetAtomicNum() for n in ring_het}
+        for zz, env in (
+            (8, "heteroaromatic-C-o"),
+            (16, "heteroaromatic-C-s"),
+            (7, "heteroaromatic-C-nR"),
+        ):
+            if zz in ring_z:
+                return env
         if ring_het:
             return "heteroaromatic-C-X"
         if not exo or all(n.GetAtomicNum() == 6 for n in exo):
@@ -1133,7 +1146,7 @@ def expected_inventory(
                     atoms=tuple(input_idx[i] for i in mapped),
                     multiplicity=mult,
                     environment=env,
-                    shift_range=ranges.get(env, ranges["other"]),
+                    shift_range=ranges.get(f"{env}.{mult}", ranges.get(env, ranges["other"])),
                     flags=ordered,
                     fragment=key,
                     couplings=couplings,
