@@ -82,8 +82,45 @@ def environment(mol: Chem.Mol, idx: int) -> str:
     return "sp3"
 
 
+def simple(mol: Chem.Mol, idx: int) -> str | None:
+    """Label the easy cases the handbook schemes were built on, or None.
+
+    ``benzene<=2`` a carbon of a lone (unfused) benzene ring with at most two substituents;
+    ``alkyl-sp3`` an sp3 carbon whose neighbours and their neighbours are all sp3 carbons.
+    """
+    atom = mol.GetAtomWithIdx(idx)
+    info = mol.GetRingInfo()
+    if atom.GetIsAromatic():
+        rings = [r for r in info.AtomRings() if idx in r]
+        if len(rings) != 1 or len(rings[0]) != 6:
+            return None
+        ring = rings[0]
+        if any(mol.GetAtomWithIdx(i).GetAtomicNum() != 6 or info.NumAtomRings(i) > 1 for i in ring):
+            return None
+        subs = sum(
+            1
+            for i in ring
+            for n in mol.GetAtomWithIdx(i).GetNeighbors()
+            if n.GetIdx() not in ring and n.GetAtomicNum() > 1
+        )
+        return "benzene<=2" if subs <= 2 else None
+
+    def sp3_carbon(a: Chem.Atom) -> bool:
+        return a.GetAtomicNum() == 6 and a.GetHybridization() == Chem.HybridizationType.SP3
+
+    if not sp3_carbon(atom):
+        return None
+    for n in atom.GetNeighbors():
+        if n.GetAtomicNum() > 1 and not sp3_carbon(n):
+            return None
+        for m in n.GetNeighbors():
+            if m.GetAtomicNum() > 1 and not sp3_carbon(m):
+                return None
+    return "alkyl-sp3"
+
+
 def evaluate(records: list[Record]) -> dict[str, np.ndarray]:
-    """Per environment (and "all"): array of rows (error ppm, predicted SD ppm)."""
+    """Per environment (and "all", and the easy subsets): rows (error ppm, predicted SD ppm)."""
     rows: dict[str, list[tuple[float, float]]] = {}
     for rec in records:
         pred = predict_atom_shifts(rec.mol)
@@ -92,6 +129,9 @@ def evaluate(records: list[Record]) -> dict[str, np.ndarray]:
             row = (ppm - obs, sd)
             rows.setdefault("all", []).append(row)
             rows.setdefault(environment(rec.mol, idx), []).append(row)
+            easy = simple(rec.mol, idx)
+            if easy is not None:
+                rows.setdefault(easy, []).append(row)
     return {k: np.array(v) for k, v in rows.items()}
 
 
@@ -124,7 +164,7 @@ def main() -> None:
     print(
         f"{'environment':<10} {'n':>6} {'MAE':>6} {'RMSE':>6} {'P95':>6} {'<=1SD':>6} {'<=2SD':>6}"
     )
-    for env in ("all", "aromatic", "alkene", "sp3", "carbonyl", "sp"):
+    for env in ("all", "aromatic", "alkene", "sp3", "carbonyl", "sp", "benzene<=2", "alkyl-sp3"):
         if env not in result:
             continue
         s = summary(result[env])

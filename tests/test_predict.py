@@ -11,12 +11,15 @@ from __future__ import annotations
 
 import importlib.util
 import math
+import random
 import sys
 import time
 from dataclasses import replace
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from rdkit import Chem
 
 from verify.errors import StructureError
@@ -230,5 +233,32 @@ def test_open_shift_set_accuracy_and_calibration(shared_data: Path) -> None:
     overall = bench.summary(result["all"])  # type: ignore[attr-defined]
     assert overall["mae"] <= 4.0
     assert overall["within2"] >= 0.85
-    # simple benzenes and alkanes do better than the whole
-    assert bench.summary(result["aromatic"])["mae"] < overall["mae"]  # type: ignore[attr-defined]
+    # the easy cases the handbook schemes were built on do better than the whole
+    # (lone benzene rings with at most two substituents; sp3 carbons among sp3 carbons)
+    assert bench.summary(result["benzene<=2"])["mae"] <= 2.5  # type: ignore[attr-defined]
+    assert bench.summary(result["alkyl-sp3"])["mae"] <= 3.0  # type: ignore[attr-defined]
+    for env in ("aromatic", "alkene", "sp3", "carbonyl"):
+        assert bench.summary(result[env])["within2"] >= 0.85, env  # type: ignore[attr-defined]
+
+
+# Structures from the published-shift list and a few drug-like ones, renumbered at random:
+# the prediction of an atom must follow the atom, not its index.
+_RENUMBER = [s for s, _, _ in PUBLISHED] + [
+    "CC(=O)Nc1ccc(O)cc1",
+    "CN1C=NC2=C1C(=O)N(C)C(=O)N2C",
+    "C=CC(=O)OC1CC2CCC1(C)C2(C)C",
+    "O=C(O)c1ccccc1OC(C)=O",
+]
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.sampled_from(_RENUMBER), st.randoms(use_true_random=False))
+def test_prediction_does_not_depend_on_atom_order(smiles: str, rng: random.Random) -> None:
+    mol = Chem.MolFromSmiles(smiles)
+    order = list(range(mol.GetNumAtoms()))
+    rng.shuffle(order)
+    shuffled = Chem.RenumberAtoms(mol, order)
+    a, b = predict_atom_shifts(mol), predict_atom_shifts(shuffled)
+    for new, old in enumerate(order):
+        if old in a:
+            assert b[new] == pytest.approx(a[old]), (smiles, old)

@@ -559,7 +559,12 @@ def _alkene(mol: Chem.Mol, atom: Chem.Atom, partner: Chem.Atom, rings: _Rings) -
     sd = t["sd"]
     x, y = atom.GetIdx(), partner.GetIdx()
     if len([1 for _, bt in _multiple(mol, atom) if bt == _DOUBLE]) >= 2:
-        return _Prediction(a["allene"]["central"], sd["allene"], "allene")
+        inner = any(
+            len([1 for _, bt in _multiple(mol, o) if bt == _DOUBLE]) >= 2
+            for o, _ in _multiple(mol, atom)
+        )
+        value = a["allene"]["cumulene_inner" if inner else "central"]
+        return _Prediction(value, sd["allene"], "allene")
     if len([1 for _, bt in _multiple(mol, partner) if bt == _DOUBLE]) >= 2:
         return _Prediction(a["allene"]["terminal"], sd["allene"], "allene")
     ppm = a["base"]
@@ -681,6 +686,9 @@ def _sp3(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> _Prediction:
         frontier = following
     if n_hetero >= 2:
         ppm += k["extra_hetero"] * (n_hetero - 1)
+    n_oxygen = sum(1 for z in neighbours if z.GetAtomicNum() == 8)
+    if n_oxygen >= 3:
+        ppm += k["extra_oxygen"] * (n_oxygen - 2)
     if n_groups >= 2:
         ppm += k["extra_group"] * (n_groups - 1)
     ppm += _steric(mol, atom, rings)
@@ -827,6 +835,26 @@ def _ring_with(rings: _Rings, *atoms: int) -> int | None:
 
 
 def _carbonyl(
+    mol: Chem.Mol, atom: Chem.Atom, rest: list[Chem.Atom], rings: _Rings
+) -> tuple[float, bool]:
+    """Typical C=O shift by type, lowered when conjugated with a five-ring heteroaryl."""
+    c = _tables()["carbonyl"]
+    value, rough = _carbonyl_type(mol, atom, rest, rings)
+    info = mol.GetRingInfo()
+    het5 = [
+        r
+        for r in rest
+        if r.GetIsAromatic()
+        and info.IsAtomInRingOfSize(r.GetIdx(), 5)
+        and not info.IsAtomInRingOfSize(r.GetIdx(), 6)
+    ]
+    if het5:
+        hetero = any(r.GetAtomicNum() != 6 for r in rest)
+        value += c["het5_acyl" if hetero else "het5_ketone"]
+    return value, rough
+
+
+def _carbonyl_type(
     mol: Chem.Mol, atom: Chem.Atom, rest: list[Chem.Atom], rings: _Rings
 ) -> tuple[float, bool]:
     c = _tables()["carbonyl"]
