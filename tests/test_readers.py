@@ -730,3 +730,44 @@ def test_ppm_axis_from_offset_when_no_shift_reference(tmp_path: Path) -> None:
     spec = read_jcamp(_file(tmp_path, "off.dx", text + data))
     np.testing.assert_allclose(spec.ppm, 50.0 - np.arange(8) / 100.0)
     assert math.isclose(spec.observe_mhz, 100.0)
+
+
+def test_form_aliases(tmp_path: Path) -> None:
+    spec = Spectrum(ppm=np.linspace(10, 0, 40), intensity=np.r_[np.zeros(20), np.ones(20)])
+    write_jcamp(spec, tmp_path / "a.dx", form="sqz_dup")
+    write_jcamp(spec, tmp_path / "b.dx", form="DUP")
+    assert (tmp_path / "a.dx").read_text() == (tmp_path / "b.dx").read_text()
+    assert read_jcamp(tmp_path / "a.dx").provenance["compression"] == ("SQZ", "DUP")
+
+
+def test_ppm_units_and_xy_pairs(tmp_path: Path) -> None:
+    # XUNITS=PPM needs no frequency arithmetic; (XY..XY) pairs in AFFN (JCAMP-DX 4.24)
+    head = HEAD.format(n=4).replace("##XUNITS= HZ", "##XUNITS= PPM")
+    head = head.replace("##FIRSTX= 0\n##LASTX= 7\n##DELTAX= 1", "##FIRSTX= 3\n##LASTX= 0")
+    text = head.replace("##XYDATA= (X++(Y..Y))", "##XYPOINTS= (XY..XY)")
+    text += "3.0, 10; 2.0, 20\n1.0, -5; 0.0, 7.5\n##END=\n"
+    spec = read_jcamp(_file(tmp_path, "pairs.dx", text))
+    np.testing.assert_array_equal(spec.ppm, [3.0, 2.0, 1.0, 0.0])
+    np.testing.assert_array_equal(spec.intensity, [10, 20, -5, 7.5])
+
+
+def test_shift_reference_and_offset_disagree(tmp_path: Path) -> None:
+    text = HEAD.format(n=8).replace(
+        "##XUNITS", "##.SHIFT REFERENCE= INTERNAL, CDCl3, 1, 10.0\n##$OFFSET= 12.0\n##XUNITS"
+    )
+    with pytest.warns(CtallyWarning, match=r"10\.0000 ppm but ##\$OFFSET= at 12\.0000"):
+        spec = read_jcamp(_file(tmp_path, "two.dx", text + GOOD_DATA))
+    assert spec.ppm[0] == pytest.approx(10.0)  # the standard label wins
+
+
+def test_compound_file_picks_the_nmr_block(tmp_path: Path) -> None:
+    ir = (
+        "##TITLE= other\n##JCAMP-DX= 5.01\n##DATA TYPE= INFRARED SPECTRUM\n##XUNITS= 1/CM\n"
+        "##FIRSTX= 0\n##LASTX= 1\n##NPOINTS= 2\n##XYDATA= (X++(Y..Y))\n0 1 2\n##END=\n"
+    )
+    link = "##TITLE= set\n##JCAMP-DX= 5.01\n##DATA TYPE= LINK\n##BLOCKS= 2\n"
+    text = link + ir + HEAD.format(n=8) + GOOD_DATA + "##END=\n"
+    spec = read_jcamp(_file(tmp_path, "set.dx", text))
+    np.testing.assert_array_equal(spec.intensity, [10, 12, 15, 19, 24, 30, 37, 45])
+    with pytest.raises(SpectrumFormatError, match=r"not an NMR file.*INFRARED.*ir\.dx"):
+        read_jcamp(_file(tmp_path, "ir.dx", ir))
