@@ -739,7 +739,8 @@ def _environment(mol: Chem.Mol, atom: Chem.Atom) -> str:
     n_s = z.count(16)
     n_f = z.count(9)
     nh = atom.GetTotalNumHs()
-    mult = nh
+    # hydrogens of any isotope: a CD3 is a methyl for its shift
+    mult = nh + sum(1 for n in atom.GetNeighbors() if n.GetAtomicNum() == 1)
     if n_f >= 3:
         return "CF3"
     if n_f == 2:
@@ -786,9 +787,7 @@ def _environment(mol: Chem.Mol, atom: Chem.Atom) -> str:
         return "sp3-Si" if 14 in z else "sp3-other"
     if ring3:
         return "sp3-ring3"
-    ndeut = sum(1 for n in atom.GetNeighbors() if n.GetAtomicNum() == 1)
-    total = nh + ndeut
-    return {3: "sp3-CH3", 2: "sp3-CH2", 1: "sp3-CH"}.get(total, "sp3-C")
+    return {3: "sp3-CH3", 2: "sp3-CH2", 1: "sp3-CH"}.get(mult, "sp3-C")
 
 
 def _aromatic_env(mol: Chem.Mol, atom: Chem.Atom) -> str:
@@ -847,7 +846,8 @@ def _aromatic_env(mol: Chem.Mol, atom: Chem.Atom) -> str:
         return "aromatic-C-other"
     if hetero_ring:
         return "heteroaromatic-C"
-    return "aromatic-CH" if atom.GetTotalNumHs() > 0 else "aromatic-C"
+    any_h = atom.GetTotalNumHs() + sum(1 for n in atom.GetNeighbors() if n.GetAtomicNum() == 1)
+    return "aromatic-CH" if any_h else "aromatic-C"
 
 
 # ---------------------------------------------------------------------- couplings
@@ -1139,6 +1139,9 @@ def expected_inventory(
             couplings, cflags = _couplings_of(mol, rep.GetIdx(), fclass, hetero)
             nh = _protium(rep)
             mult: Multiplicity = MULTIPLICITIES[min(nh, 3)]
+            # shift ranges by hydrogens of any isotope (a CD2 shifts like a CH2)
+            anyh = nh + sum(1 for n in rep.GetNeighbors() if n.GetAtomicNum() == 1)
+            hmult = MULTIPLICITIES[min(anyh, 3)]
             all_flags = flags | cflags
             ordered = tuple(f for f in _FLAG_ORDER if f in all_flags)
             classes.append(
@@ -1146,7 +1149,7 @@ def expected_inventory(
                     atoms=tuple(input_idx[i] for i in mapped),
                     multiplicity=mult,
                     environment=env,
-                    shift_range=ranges.get(f"{env}.{mult}", ranges.get(env, ranges["other"])),
+                    shift_range=ranges.get(f"{env}.{hmult}", ranges.get(env, ranges["other"])),
                     flags=ordered,
                     fragment=key,
                     couplings=couplings,
