@@ -91,6 +91,9 @@ CHI2_CAP = 400.0
 SCALE_SPREAD = 0.7
 #: Cap of one signal's score in the global scale/sign fit.
 ROW_CAP = 25.0
+#: Below this fraction of a typical carbon, an edited-only peak is a minor component
+#: (all carbons of one compound share its concentration; common practice).
+MINOR_FRACTION = 0.15
 #: Minimum matching tolerance in ppm.
 MIN_TOLERANCE_PPM = 0.05
 #: |height| / noise above which a peak counts as present in words.
@@ -423,14 +426,14 @@ def _prepare(
             for k in range(e_count)
         ]
     )
-    noe = _noe_terms(hc, y, sigma, fixed)
+    noe = _noe_terms(hc, y, sigma, weight >= 1.0)
     dept_cols = [k for k, e in enumerate(edited) if e != "apt"]
     if dept_cols:
         dept_seen = np.any(np.abs(y[:, dept_cols]) > PRESENT_SNR * sigma[:, dept_cols], axis=1)
     else:
         dept_seen = np.zeros(n, dtype=bool)
     apt_only = ~np.isfinite(hc) & ~dept_seen & ("apt" in edited)
-    finite = hc[np.isfinite(hc) & (hc > 0)]
+    finite = hc[np.isfinite(hc) & (hc > 0) & (weight >= 1.0)]
     carbon_ref = float(np.median(finite)) if finite.size else 1.0
     return _Data(
         tuple(edited),
@@ -463,28 +466,34 @@ def _noe_terms(
     hc: npt.NDArray[np.float64],
     y: npt.NDArray[np.float64],
     sigma: npt.NDArray[np.float64],
-    fixed: npt.NDArray[np.int64],
+    usable: npt.NDArray[np.bool_],
 ) -> npt.NDArray[np.float64]:
     """Carbon-height term: quaternary carbons are weaker (no NOE, long T1).
 
-    Relative height against the median of signals clearly present in some edited
-    spectrum; C expected at 0.45, protonated at 1 (1 or 2 carbons), log spread 0.7.
-    References: Friebolin, Basic One- and Two-Dimensional NMR Spectroscopy, 2011,
-    ch. 10 (NOE of protonated carbons up to 2.99×; common practice).
+    Relative height against the median of sample signals clearly present in some
+    edited spectrum; C expected at 0.45, protonated at 1 (1 or 2 carbons), log spread
+    0.7, each term capped at 4 so that it only tips otherwise undecided calls.
+
+    References
+    ----------
+    Friebolin, Basic One- and Two-Dimensional NMR Spectroscopy, 5th ed., 2011, ch. 10
+    (NOE of protonated carbons up to 2.99×; common practice).
+
     """
     out = np.zeros((hc.size, 4))
     if y.shape[1] == 0:
         return out
-    present = np.any(np.abs(y) > 5.0 * sigma, axis=1) & np.isfinite(hc) & (fixed < 0)
+    present = np.any(np.abs(y) > 5.0 * sigma, axis=1) & np.isfinite(hc) & usable
     if present.sum() < 3:
         return out
     ref = float(np.median(hc[present]))
     if not ref > 0:
         return out
-    rel = np.where(np.isfinite(hc) & (hc > 0), hc / ref, np.nan)
-    for m, centre in enumerate((0.45, 1.0, 1.0, 1.0)):
-        terms = [((np.log(rel) - np.log(centre * k)) / 0.7) ** 2 for k in (1.0, 2.0)]
-        out[:, m] = np.nan_to_num(np.minimum(*terms), nan=0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rel = np.where(np.isfinite(hc) & (hc > 0), hc / ref, np.nan)
+        for m, centre in enumerate((0.45, 1.0, 1.0, 1.0)):
+            terms = [((np.log(rel) - np.log(centre * k)) / 0.7) ** 2 for k in (1.0, 2.0)]
+            out[:, m] = np.minimum(np.nan_to_num(np.minimum(*terms), nan=0.0), 4.0)
     return out
 
 
@@ -808,11 +817,20 @@ def classify(
             inverted.append(e)
             notes.append(f"{_NAMES[e]} was stored with inverted phase; its signs were corrected.")
     fit = _scores(data, scale, sign)
+    if "carbon" in peaksets:
+        for i, row in enumerate(rows):
+            if row.carbon is None and row.role == "sample":
+                why = _not_a_carbon(i, row, data, scale, sign, peaksets["carbon"])
+                if why:
+                    row.role, row.note = (
+                        ("impurity" if why.startswith("minor") else "artifact"),
+                        why,
+                    )
     signals = [
         _decide(i, row, data, fit, scale, sign, mode, solvent_name) for i, row in enumerate(rows)
     ]
     signals = _carbon_hints(signals, mode)
-    missing = [r for r in rows if r.carbon is None and "carbon" in peaksets]
+    missing = [r for r in rows if r.carbon is None and r.role == "sample" and "carbon" in peaksets]
     if missing:
         notes.append(
             f"{len(missing)} signal(s) seen in edited spectra were not picked in the carbon "
@@ -901,6 +919,56 @@ def _carbon_only(carbon: PeakSet, carbon_sign: float, solvent: str) -> list[Sign
             )
         )
     return _carbon_hints(out, "carbon-only")
+
+
+def _not_a_carbon(
+    i: int,
+    row: _Row,
+    data: _Data,
+    scale: npt.NDArray[np.float64],
+    sign: npt.NDArray[np.float64],
+    carbon: PeakSet,
+) -> str:
+    """Why an edited-only peak is not a carbon of the sample ("" when it may be one).
+
+    A carbon that gives an edited peak of a given size also gives a carbon-spectrum peak
+    of about that size (in units fitted from the other signals).  When the carbon
+    spectrum would show it clearly (expected SNR ≥ 2× its picking threshold) but has
+    less than a third of that at the position, the edited peak is residual solvent,
+    a sideband or another artefact.  Peaks on a solvent multiplet are residual solvent.
+    """
+    for p in carbon.peaks:
+        if p.role == "solvent":
+            span = (max(p.lines) - min(p.lines)) / 2.0 if p.lines else 0.0
+            if abs(row.ppm - p.ppm) <= span + 0.1:
+                return "residual solvent signal in an edited spectrum"
+    typical = {"dept45": 0.9, "dept90": 1.0, "dept135": 0.85, "apt": 1.0}
+    equiv = 0.0
+    where = ""
+    for k, e in enumerate(data.edited):
+        if not row.picked.get(e):
+            continue
+        h = abs(data.y[i, k]) / (scale[k] * typical[e])
+        if h > equiv:
+            equiv, where = h, _NAMES[e]
+    noise = _noise(carbon)
+    if equiv <= 0 or noise <= 0:
+        return ""
+    if equiv < MINOR_FRACTION * data.carbon_ref:
+        return (
+            f"minor: seen only in {where}, about {100.0 * equiv / data.carbon_ref:.0f} % of a "
+            "typical carbon of the sample, so not one of its carbons"
+        )
+    expected_snr = equiv / noise
+    value = _value_at(carbon, row.ppm)
+    seen = abs(value) if value is not None else 0.0
+    if expected_snr >= 2.0 * max(carbon.threshold_snr, 5.0) and seen < equiv / 3.0:
+        return (
+            f"seen only in {where}; a carbon of that size would stand at SNR ~{expected_snr:.0f} "
+            f"in the carbon spectrum, which shows {seen / noise:.1f}: not a carbon signal "
+            "(sideband, solvent residue or other artefact)"
+        )
+    return ""
 
 
 def _decide(
