@@ -426,7 +426,37 @@ def _six_ring(
             n += 1
     if n_alpha >= 2:
         ppm += aza["second_alpha"] * (n_alpha - 1)
+    ppm += _oxygen_pairs(mol, order, ring)
     return ppm, n, kind
+
+
+def _oxygen_pairs(mol: Chem.Mol, order: list[int], ring: tuple[int, ...]) -> float:
+    """Correction for oxygen substituents on neighbouring ring carbons (1,2-dioxy).
+
+    Two ortho O-substituents twist each other out of the ring plane, so the sum of the
+    benzene increments is off near them: a member of the pair gets ``pair``, a carbon
+    without oxygen next to the pair gets ``next`` (veratrole, pyrogallol ethers).
+    """
+    t = _tables()["aromatic"]["ortho_oxygen"]
+
+    def oxygenated(i: int) -> bool:
+        atom = mol.GetAtomWithIdx(i)
+        return atom.GetAtomicNum() == 6 and any(
+            z.GetAtomicNum() == 8 and _bond(mol, i, z.GetIdx()) == _SINGLE
+            for z in _heavy(atom, *ring)
+        )
+
+    flags = [oxygenated(i) for i in order]
+    total = 0.0
+    for k in range(6):
+        pair = (k, (k + 1) % 6)
+        if not (flags[pair[0]] and flags[pair[1]]):
+            continue
+        if 0 in pair:
+            total += t["pair"]
+        elif not flags[0] and (1 in pair or 5 in pair):
+            total += t["next"]
+    return total
 
 
 def _ipso(mol: Chem.Mol, y: int, z: Chem.Atom, tabled: float, next_to_n: bool) -> float:
