@@ -135,12 +135,18 @@ def test_inventory_table_matches_model_counts() -> None:
         v.expectation.signals(),
         v.observation.signal_counts(),
     )
+    checked = []
     for row in table.find_all("tr"):
         cls = row.attrs.get("data-class")
-        if cls is None:
+        if cls not in exp:
             continue
         cells = [c.text for c in row.children if c.tag in ("td", "th")]
         assert cells[1:4] == [str(exp[cls]), str(sig[cls]), str(seen[cls])]
+        checked.append(cls)
+    assert checked == ["C", "CH", "CH2", "CH3"]
+    total = table.find_all("tr", data_class="all")[0]
+    cells = [c.text for c in total.children if c.tag in ("td", "th")]
+    assert cells[1:5] == ["9", "7", "7", "agrees"]  # C9H10O2: 9 carbons in 7 classes
     # RDKit symmetry classes of 4'-methoxyacetophenone: CH3 ×2, CH 2 classes (4 C), C ×3
     assert (exp["C"], exp["CH"], exp["CH3"]) == (3, 4, 2)
 
@@ -337,6 +343,9 @@ def test_carbon_only_signals_show_unknown_call() -> None:
         if r.attrs.get("data-class") == "not classified"
     ]
     assert rows and str(len(SHIFTS)) in rows[0].text
+    # no per-class comparison is claimed without edited spectra
+    ch = doc.by_id("inventory").find_all("tr", data_class="CH")[0]
+    assert "not measured" in ch.text and "differs" not in ch.text
 
 
 # --------------------------------------------------------------------- audit

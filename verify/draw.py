@@ -266,7 +266,7 @@ def crowded_windows(
     apart, and each group of at least `min_marks` that spans less than 60 % of the
     window becomes an expansion (1 ppm margin, at most two, most crowded first).
     """
-    inside = sorted(m.ppm for m in marks if lo <= m.ppm <= hi)
+    inside = sorted(m.ppm for m in marks if lo <= m.ppm <= hi and m.status != "artifact")
     if not inside or _lane_count(marks, lo, hi, width) <= max_lanes:
         return []
     groups: list[list[float]] = [[inside[0]]]
@@ -288,7 +288,7 @@ def _lane_count(marks: Sequence[Mark], lo: float, hi: float, width: int) -> int:
     plot_w = width - left - right
     spans = []
     for m in marks:
-        if lo <= m.ppm <= hi:
+        if lo <= m.ppm <= hi and m.status != "artifact":
             x = left + (hi - m.ppm) / (hi - lo) * plot_w
             w = _text_px(m.text, 11.0) + 12.0
             x0 = min(max(x - w / 2, left), width - right - w)
@@ -404,8 +404,10 @@ def spectrum_stack_svg(
         if m.short and m.status == "agree" and any(a <= m.ppm <= b for a, b in compact)
         else m
         for m in marks
-        if lo <= m.ppm <= hi
+        if lo <= m.ppm <= hi and m.status != "artifact"
     ]
+    # artifacts get a bare glyph just above the top panel: no label row of their own
+    bare = [m for m in marks if lo <= m.ppm <= hi and m.status == "artifact"]
     spans = []
     for m in shown:
         w = _text_px(m.text, size) + 12.0  # glyph + gap
@@ -522,6 +524,13 @@ def spectrum_stack_svg(
         )
         out.append("</g>")
 
+    for m in bare:
+        out.append(f'<g class="mark" data-status="{m.status}" data-ppm="{m.ppm:.2f}">')
+        if m.detail:
+            out.append(f"<title>{escape(m.detail)}</title>")
+        out.append(glyph_svg(m.status, px(m.ppm), top - 5.0, 3.5))
+        out.append("</g>")
+
     # axis
     out.append(
         f'<path d="M{left:.1f} {axis_y:.1f}H{left + plot_w:.1f}" stroke="{PALETTE["ink"]}" '
@@ -617,12 +626,16 @@ def structure_svg(
         rdDepictor.Compute2DCoords(mol)
     marked = sorted({i for i in marked if 0 <= i < mol.GetNumAtoms()})
     w, h = size
+    bond_px = 34.0  # longest bond drawn, so that small molecules are not blown up
     pos = mol.GetConformer().GetPositions()
-    if len(pos) > 1:  # fit the canvas to the drawing's aspect, within 0.45–1.1 of the width
-        dx, dy = np.ptp(pos[:, 0]) + 1.5, np.ptp(pos[:, 1]) + 1.5
-        h = int(min(max(w * dy / dx, 0.45 * w), 1.1 * w, h))
+    if len(pos) > 1:  # fit the canvas to the drawing (RDKit bonds are ~1.5 units long)
+        dx = float(np.ptp(pos[:, 0])) + 2.5
+        dy = float(np.ptp(pos[:, 1])) + 2.5
+        scale = min(bond_px / 1.5, w / dx, h / dy)
+        w, h = int(max(dx * scale, 0.5 * w)), int(max(dy * scale, 0.4 * h))
     drawer = rdMolDraw2D.MolDraw2DSVG(w, h)
     opts: Any = drawer.drawOptions()
+    opts.fixedBondLength = bond_px
     opts.annotationFontScale = 0.62
     opts.padding = 0.08
     opts.clearBackground = False

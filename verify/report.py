@@ -316,13 +316,15 @@ def _signal_views(verdict: Verdict) -> list[_SignalView]:
 def _mark_for(v: _SignalView) -> Mark:
     s = v.signal
     call = s.multiplicity or "?"
+    shown = s.multiplicity or ""  # carbon-only data: no call to show beside the atom
     short = ""
     if v.status in ("solvent", "impurity", "artifact"):
         text = v.name if v.name == v.status else f"{v.name} ({v.status})"
     elif not v.atoms:
-        text = f"{call} unexplained" if v.status == "mismatch" else f"{call} unassigned"
+        word = "unexplained" if v.status == "mismatch" else "unassigned"
+        text = f"{shown} {word}".strip()
     else:
-        text, short = f"{v.atoms} {call}", v.atoms
+        text, short = f"{v.atoms} {shown}".strip(), v.atoms
         if v.status == "mismatch":
             text += " mismatch"
     detail = (
@@ -427,6 +429,9 @@ def _inventory_rows(verdict: Verdict) -> list[dict[str, Any]]:
             }
         )
     unknown = sum(1 for s in own if s.multiplicity is None)
+    if unknown and unknown == len(own):  # carbon spectrum only: no class can be compared
+        for r in rows:
+            r.update(observed="–", observed_carbons="–", agrees=None, word="not measured")
     if unknown:
         rows.append(
             {
@@ -439,6 +444,18 @@ def _inventory_rows(verdict: Verdict) -> list[dict[str, Any]]:
                 "word": "no edited spectrum tells",
             }
         )
+    want, got = sum(signals.values()), len(own)
+    rows.append(
+        {
+            "cls": "all",
+            "carbons": sum(carbons.values()),
+            "expected": want,
+            "observed": got,
+            "observed_carbons": sum(s.carbons for s in own),
+            "agrees": want == got,
+            "word": "agrees" if want == got else f"differs by {got - want:+d}",
+        }
+    )
     return rows
 
 
