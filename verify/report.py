@@ -401,13 +401,24 @@ def _traces(verdict: Verdict) -> list[tuple[str, Spectrum]]:
     return out
 
 
-def _inventory_rows(verdict: Verdict) -> list[dict[str, Any]]:
-    exp, obs = verdict.expectation, verdict.observation
-    carbons, signals = exp.inventory(), exp.signals()
-    # Observation.signal_counts() counts every sample-role signal; the verdict stage may
-    # since have explained some of them as an impurity, and those are not the sample's
+def _own_signals(verdict: Verdict) -> list[Signal]:
+    """Sample-role signals that the verdict did not explain as an impurity.
+
+    Observation.signal_counts() counts every sample-role signal; the verdict stage may
+    since have explained some of them as an impurity, and those are not the sample's.
+    """
     explained = {i for imp in verdict.impurities for i in imp.signals}
-    own = [s for i, s in enumerate(obs.signals) if s.role == "sample" and i not in explained]
+    return [
+        s
+        for i, s in enumerate(verdict.observation.signals)
+        if s.role == "sample" and i not in explained
+    ]
+
+
+def _inventory_rows(verdict: Verdict) -> list[dict[str, Any]]:
+    exp = verdict.expectation
+    carbons, signals = exp.inventory(), exp.signals()
+    own = _own_signals(verdict)
     seen = dict.fromkeys(MULTIPLICITIES, 0)
     seen_c = dict.fromkeys(MULTIPLICITIES, 0)
     for s in own:
@@ -550,8 +561,16 @@ def _candidate_rows(verdict: Verdict, candidates: Sequence[Verdict]) -> list[dic
     ranked = sorted(pool, key=lambda c: -c.score)
     rows = []
     for rank, c in enumerate(ranked, start=1):
-        counts = c.observation.signal_counts()
+        counts = dict.fromkeys(MULTIPLICITIES, 0)
+        for sig in _own_signals(c):
+            if sig.multiplicity is not None:
+                counts[sig.multiplicity] += 1
         want = c.expectation.signals()
+        picture = (
+            _structure_svg(c.expectation.molblock, numbered=False, size=(180, 120))
+            if c.expectation.molblock
+            else None
+        )
         rows.append(
             {
                 "rank": rank,
@@ -565,6 +584,7 @@ def _candidate_rows(verdict: Verdict, candidates: Sequence[Verdict]) -> list[dic
                 "reviews": sum(1 for f in c.findings if f.severity == "review"),
                 "counts": " · ".join(f"{m} {counts[m]}/{want[m]}" for m in MULTIPLICITIES),
                 "this": c is verdict,
+                "picture": Markup(picture) if picture else None,
             }
         )
     return rows
