@@ -103,3 +103,26 @@ def test_report_prints_to_pdf(browser: str, tmp_path: Path) -> None:
     assert size in {(595, 842), (612, 792)}
     ARTIFACTS.mkdir(exist_ok=True)
     (ARTIFACTS / "report.pdf").write_bytes(data)
+
+
+def test_example_report_in_the_browser(browser: str, tmp_path: Path) -> None:
+    # the bundled review example end to end: the page a chemist would open
+    pipeline = pytest.importorskip("verify.pipeline")
+    sample_mod = pytest.importorskip("verify.sample")
+    examples = Path(__file__).resolve().parents[1] / "examples"
+    sample = sample_mod.load_sample(examples / "lot-ethyl-acetate" / "sample.toml")
+    result = pipeline.check(sample)
+    page = write_html(result.verdict, tmp_path / "example.html", sample=sample, audit=result.audit)
+    run = _run(browser, tmp_path, page, "--dump-dom")
+    assert run.returncode == 0 and _console(run.stderr) == []
+    doc = parse(run.stdout)
+    assert doc.by_id("verdict").attrs["data-verdict"] == result.verdict.verdict
+    rows = {r.attrs.get("data-atoms") for r in doc.by_id("assignment").find_all("tr")} - {None}
+    assert rows == {c.label for c in result.verdict.expectation.classes}
+    codes = {n.attrs.get("data-code") for n in doc.by_id("findings").find_all("tr")} - {None}
+    assert codes == {f.code for f in result.verdict.findings}
+    ARTIFACTS.mkdir(exist_ok=True)
+    shot = ARTIFACTS / "example-lot-ethyl-acetate.png"
+    shot.unlink(missing_ok=True)
+    _run(browser, tmp_path, page, f"--screenshot={shot}", "--window-size=1200,3200")
+    assert shot.is_file() and shot.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
