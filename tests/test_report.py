@@ -17,6 +17,8 @@ import numpy as np
 import pytest
 from _report_cases import SHIFTS, make_sample, make_verdict
 from html_nodes import parse
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from rdkit import Chem
 
 from verify import __version__
@@ -535,3 +537,21 @@ def test_candidates_show_a_structure_thumbnail_each() -> None:
     assert all(r.find_all("svg") for r in rows)
     # thumbnails carry no atom numbers (RDKit draws atom notes as paths of class "note")
     assert not [p for r in rows for p in r.find_all("path", **{"class": "note"})]
+
+
+@given(
+    st.lists(st.floats(-1e6, 1e6, allow_nan=False), min_size=3, max_size=400),
+    st.integers(1, 60),
+)
+@settings(max_examples=60, deadline=None)
+def test_downsample_is_independent_of_axis_direction_and_keeps_extremes(
+    values: list[float], bins: int
+) -> None:
+    # invariant (house style): reversing the ppm axis changes nothing
+    x = np.linspace(100.0, 0.0, len(values))
+    y = np.array(values)
+    a = minmax_downsample(x, y, bins, 0.0, 100.0)
+    b = minmax_downsample(x[::-1], y[::-1], bins, 0.0, 100.0)
+    assert np.array_equal(a[0], b[0]) and np.array_equal(a[1], b[1])
+    assert a[1].max() == y.max() and a[1].min() == y.min()
+    assert np.all(np.diff(a[0]) >= 0)
