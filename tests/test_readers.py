@@ -771,3 +771,24 @@ def test_compound_file_picks_the_nmr_block(tmp_path: Path) -> None:
     np.testing.assert_array_equal(spec.intensity, [10, 12, 15, 19, 24, 30, 37, 45])
     with pytest.raises(SpectrumFormatError, match=r"not an NMR file.*INFRARED.*ir\.dx"):
         read_jcamp(_file(tmp_path, "ir.dx", ir))
+
+
+def test_file_without_nucleus_is_taken_as_carbon_with_a_warning(tmp_path: Path) -> None:
+    path = _file(
+        tmp_path, "nonuc.dx", HEAD.format(n=8).replace("##.OBSERVE NUCLEUS= ^13C\n", "") + GOOD_DATA
+    )
+    assert read_any(path).nucleus == "unknown"
+    with pytest.warns(CtallyWarning, match=r"nonuc\.dx names no observed nucleus"):
+        assert read_any(path, role="carbon").nucleus == "13C"
+
+
+def test_analogue_fid_has_no_group_delay() -> None:
+    from verify.readers._common import group_delay_points
+
+    # DIGMOD 0 = analogue filter; DECIM/DSPFVS then mean nothing (Bruker acqus, common
+    # practice); GRPDLY wins when set; the table otherwise (nmrglue's copy)
+    assert group_delay_points(8, 10, -1, 0) == (0.0, "analogue (DIGMOD 0)")
+    assert group_delay_points(8, 10, 67.98, 1) == (67.98, "GRPDLY")
+    assert group_delay_points(8, 10, -1, 1)[0] == ng.fileio.bruker.bruker_dsp_table[10][8]
+    with pytest.warns(CtallyWarning, match="no digital-filter delay known for DECIM=7"):
+        assert group_delay_points(7, 10, -1, 1) == (0.0, "unknown")

@@ -10,7 +10,8 @@
 * text whose first line is a CSV header naming ``ppm`` and ``intensity`` → peak list
   (:func:`~verify.readers.peaklist.read_peaklist`).
 
-With a ``role`` the result is checked for that role: the nucleus must be 13C, and
+With a ``role`` the result is checked for that role: the nucleus must be 13C (a file
+that names none is taken as 13C with a warning), and
 the experiment becomes the role (the sample file wins); when the pulse program
 clearly says another experiment (a DEPT-135 file given as ``carbon``) a
 :class:`~verify.errors.CtallyWarning` says so.
@@ -141,6 +142,13 @@ def read_any(path: str | os.PathLike[str], *, role: str | None = None) -> Spectr
         obj = read_rawdir(p)
     if role is None:
         return obj
+    if obj.nucleus == "unknown":
+        warnings.warn(
+            f"{p.name} names no observed nucleus; it is taken as 13C for the {role} role",
+            CtallyWarning,
+            stacklevel=2,
+        )
+        obj = replace(obj, nucleus="13C")
     if obj.nucleus != "13C":
         raise InputFileError(
             f"the {role} role needs a 13C spectrum but the file is {obj.nucleus}"

@@ -10,14 +10,21 @@ common use (``zgpg30``, ``zgdc30``, ``dept135``, ``jmod`` ...); the mapping live
 
 from __future__ import annotations
 
+import os
 import re
 import tomllib
+import warnings
 from functools import lru_cache
 from pathlib import Path
 
-from verify.errors import InputFileError
+from verify.errors import CtallyWarning, InputFileError
 
-__all__ = ["experiment_from_pulse_program", "normalise_nucleus", "existing_path"]
+__all__ = [
+    "existing_path",
+    "experiment_from_pulse_program",
+    "group_delay_points",
+    "normalise_nucleus",
+]
 
 _NUCLEUS_RE = re.compile(r"\^?\s*(\d+)\s*([A-Za-z]{1,2})|([A-Za-z]{1,2})\s*(\d+)")
 
@@ -87,9 +94,54 @@ def experiment_from_pulse_program(name: str | None) -> str:
     return "unknown"
 
 
-def existing_path(path: str | Path) -> Path:
+def existing_path(path: str | os.PathLike[str]) -> Path:
     """Return the path as a :class:`Path`, or :class:`InputFileError` when it does not exist."""
     p = Path(path)
     if not p.exists():
         raise InputFileError(f"no such file or folder: {p}; check the path", path=p)
     return p
+
+
+def group_delay_points(
+    decim: float | None,
+    dspfvs: float | None,
+    grpdly: float | None,
+    digmod: float | None = None,
+) -> tuple[float, str]:
+    """Digital-filter group delay in complex points.
+
+    Parameters
+    ----------
+    decim, dspfvs, grpdly, digmod : float or None
+        Bruker acquisition parameters ``DECIM``, ``DSPFVS``, ``GRPDLY`` and ``DIGMOD``
+        (0 = analogue filter: no group delay).
+
+    Returns
+    -------
+    (float, str)
+        The delay and where it came from (``"GRPDLY"``, ``"DSP table"``, ``"none"``).
+
+    References
+    ----------
+    W. M. Westler, F. Abildgaard, "DMX digital filters and the delay", Bruker
+    user note (1996), the table nmrglue ships as ``nmrglue.fileio.bruker.bruker_dsp_table``.
+
+    """
+    if digmod is not None and digmod == 0:
+        return 0.0, "analogue (DIGMOD 0)"
+    if grpdly is not None and grpdly > 0:
+        return float(grpdly), "GRPDLY"
+    if decim is None or dspfvs is None:
+        return 0.0, "none"
+    from nmrglue.fileio.bruker import bruker_dsp_table
+
+    table = bruker_dsp_table.get(int(dspfvs))
+    if table is None or int(decim) not in table or decim != int(decim):
+        warnings.warn(
+            f"no digital-filter delay known for DECIM={decim:g}, DSPFVS={dspfvs:g};"
+            " the FID is taken as analogue (group delay 0)",
+            CtallyWarning,
+            stacklevel=3,
+        )
+        return 0.0, "unknown"
+    return float(table[int(decim)]), "DSP table"

@@ -86,7 +86,11 @@ import numpy.typing as npt
 from verify._files import atomic_write_text
 from verify.errors import CtallyWarning, InputFileError, SpectrumFormatError, UsageError
 from verify.model import Fid, Spectrum
-from verify.readers._common import experiment_from_pulse_program, normalise_nucleus
+from verify.readers._common import (
+    experiment_from_pulse_program,
+    group_delay_points,
+    normalise_nucleus,
+)
 
 __all__ = ["FORMS", "MAX_POINTS", "read_jcamp", "write_jcamp"]
 
@@ -1060,45 +1064,6 @@ def _spectrum(
         raise SpectrumFormatError(f"the decoded spectrum is unusable: {exc}", path=path) from None
 
 
-def group_delay_points(
-    decim: float | None, dspfvs: float | None, grpdly: float | None
-) -> tuple[float, str]:
-    """Digital-filter group delay in complex points.
-
-    Parameters
-    ----------
-    decim, dspfvs, grpdly : float or None
-        Bruker acquisition parameters ``DECIM``, ``DSPFVS``, ``GRPDLY``.
-
-    Returns
-    -------
-    (float, str)
-        The delay and where it came from (``"GRPDLY"``, ``"DSP table"``, ``"none"``).
-
-    References
-    ----------
-    W. M. Westler, F. Abildgaard, "DMX digital filters and the delay", Bruker
-    user note (1996), the table nmrglue ships as ``nmrglue.fileio.bruker.bruker_dsp_table``.
-
-    """
-    if grpdly is not None and grpdly > 0:
-        return float(grpdly), "GRPDLY"
-    if decim is None or dspfvs is None:
-        return 0.0, "none"
-    from nmrglue.fileio.bruker import bruker_dsp_table
-
-    table = bruker_dsp_table.get(int(dspfvs))
-    if table is None or int(decim) not in table or decim != int(decim):
-        warnings.warn(
-            f"no digital-filter delay known for DECIM={decim:g}, DSPFVS={dspfvs:g};"
-            " the FID is taken as analogue (group delay 0)",
-            CtallyWarning,
-            stacklevel=3,
-        )
-        return 0.0, "unknown"
-    return float(table[int(decim)]), "DSP table"
-
-
 def _fid(
     labels: dict[str, tuple[str, int]],
     path: Path,
@@ -1139,7 +1104,10 @@ def _fid(
         )
         del ref
     gd, gd_src = group_delay_points(
-        _num(labels, "$DECIM", path), _num(labels, "$DSPFVS", path), _num(labels, "$GRPDLY", path)
+        _num(labels, "$DECIM", path),
+        _num(labels, "$DSPFVS", path),
+        _num(labels, "$GRPDLY", path),
+        _num(labels, "$DIGMOD", path),
     )
     params["group_delay_source"] = gd_src
     try:

@@ -32,8 +32,11 @@ import numpy as np
 
 from verify.errors import CtallyWarning, InputFileError, SpectrumFormatError
 from verify.model import Fid, Spectrum
-from verify.readers._common import experiment_from_pulse_program, normalise_nucleus
-from verify.readers.jcamp import group_delay_points
+from verify.readers._common import (
+    experiment_from_pulse_program,
+    group_delay_points,
+    normalise_nucleus,
+)
 
 __all__ = ["is_rawdir", "read_rawdir"]
 
@@ -157,7 +160,7 @@ def read_rawdir(
     sf = _float(procs, "SF") if procs else None
     sf = sf or bf1 or sfo1
     decim, dspfvs, grpdly = _float(acq, "DECIM"), _float(acq, "DSPFVS"), _float(acq, "GRPDLY")
-    gd, gd_src = group_delay_points(decim, dspfvs, grpdly)
+    gd, gd_src = group_delay_points(decim, dspfvs, grpdly, _float(acq, "DIGMOD"))
     pulse = _param(acq, "PULPROG")
     prov: dict[str, Any] = {
         "format": "raw folder",
@@ -217,7 +220,7 @@ def _read_processed(folder: Path, procno: int) -> Spectrum:
         warnings.warn(
             f"procs SI = {procs.get('SI')} but 1r holds {si} points", CtallyWarning, stacklevel=3
         )
-    ppm = offset - np.arange(si) * sw_p / (sf * si)
+    ppm = np.asarray(offset - np.arange(si) * sw_p / (sf * si), dtype=np.float64)
     pulse = _param(acq, "PULPROG")
     prov = {
         "format": "raw folder, processed",
