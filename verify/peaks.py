@@ -63,6 +63,9 @@ _PROMINENCE_WINDOW_HZ = 30.0
 #: satellites (or spinning sidebands), not carbons of the sample.
 _SATELLITE_FRACTION = 0.02
 _SATELLITE_HZ = (12.0, 95.0)
+#: Weak lines placed symmetrically (±1 Hz or 1 %) about a line at least 50× stronger,
+#: up to this far (Hz), are sidebands (spinning, decoupler modulation): common practice.
+_SIDEBAND_MAX_HZ = 2000.0
 #: A line below this fraction of the typical sample line (carbon spectrum only) is
 #: taken for an impurity: in routine 13C{1H} spectra a quaternary carbon is seldom
 #: weaker than ~15 % of the median protonated carbon (experience; no table).
@@ -193,6 +196,8 @@ def pick_peaks(
 
     if experiment == "carbon":
         _mark_weak(lines, roles, used, peaks)
+    elif key is not None and experiment not in ("carbon", "apt"):
+        _mark_protonated_solvent(lines, roles, key, at, spectrum.observe_mhz)
     for i, ln in enumerate(lines):
         if i in used:
             continue
@@ -232,17 +237,46 @@ def _artifact_roles(lines: list[Line], hz_per_point: float) -> list[str]:
             ):
                 roles[i] = "artifact"  # a 13C-13C satellite or spinning sideband
                 break
+    # symmetric pairs of weak lines around a strong one: modulation/spinning sidebands
+    for big in lines:
+        weak = [
+            k
+            for k, ln in enumerate(lines)
+            if abs(ln.height) < _SATELLITE_FRACTION * abs(big.height)
+            and 0 < abs(ln.pos - big.pos) * hz_per_point <= _SIDEBAND_MAX_HZ
+        ]
+        for a in weak:
+            for b in weak:
+                da, db = lines[a].pos - big.pos, big.pos - lines[b].pos
+                if (
+                    da > 0
+                    and db > 0
+                    and abs(da - db) * hz_per_point < max(1.0, 0.01 * da * hz_per_point)
+                ):
+                    roles[a] = roles[b] = "artifact"
     for i, ln in enumerate(lines):
-        for j in (i - 1, i + 1):
+        for j in (i - 2, i - 1, i + 1, i + 2):
             if not 0 <= j < len(lines):
                 continue
             big = lines[j]
-            if (
-                np.sign(big.height) != np.sign(ln.height)
-                and abs(ln.height) < 0.25 * abs(big.height)
-                and abs(ln.pos - big.pos) < 2.5 * big.width
+            near = abs(ln.pos - big.pos) < 3.0 * (big.width + ln.width)
+            if not near:
+                continue
+            if np.sign(big.height) != np.sign(ln.height) and abs(ln.height) < 0.25 * abs(
+                big.height
             ):
                 roles[i] = "artifact"  # the opposite lobe of a dispersive (mis-phased) line
+            elif abs(ln.height) < 0.1 * abs(big.height) and ln.width > 3.0 * max(
+                typical, big.width
+            ):
+                roles[i] = "artifact"  # a broad foot or shoulder under a sharp line
+        if ln.width > 4.0 * typical and any(
+            abs(big.height) > 20.0 * abs(ln.height)
+            and abs(big.pos - ln.pos) < 10.0 * ln.width
+            and big.width < 0.5 * ln.width
+            for big in lines
+        ):
+            roles[i] = "artifact"  # the wide skirt of a much stronger sharp line
     return roles
 
 
@@ -273,6 +307,34 @@ def _mark_isotopologues(
             continue
         if lo <= at(ln.pos) <= hi and abs(ln.height) < 0.25 * top:
             roles[i] = "solvent"
+
+
+def _mark_protonated_solvent(
+    lines: list[Line],
+    roles: list[str],
+    key: str,
+    at: Callable[[float], float],
+    mhz: float,
+) -> None:
+    """In an edited spectrum, label the weak lines of the solvent's protonated isotopologue.
+
+    DEPT shows no CDn carbon, but CHCl3 (in CDCl3) or CHD2 (in a CD3 solvent) is a
+    protonated carbon ~0.2–0.3 ppm above the solvent (from memory).  Lines from the
+    solvent multiplet's low edge to 0.45 ppm above its high edge, weaker than a
+    quarter of the median strong line, are labelled ``"solvent"``.
+    """
+    heights = np.array([abs(ln.height) for ln in lines])
+    if heights.size == 0:
+        return
+    typical = float(np.median(heights[heights >= 0.1 * heights.max()]))
+    for sig in solvent_signals(key):
+        if sig.deuterium == 0:
+            continue
+        span = (len(sig.pattern) // 2) * sig.j_hz / mhz
+        lo, hi = sig.ppm - span - 0.05, sig.ppm + span + 0.45
+        for i, ln in enumerate(lines):
+            if roles[i] == "sample" and lo <= at(ln.pos) <= hi and heights[i] < 0.25 * typical:
+                roles[i] = "solvent"
 
 
 def _mark_weak(lines: list[Line], roles: list[str], used: set[int], peaks: list[Peak]) -> None:
