@@ -253,3 +253,41 @@ def test_bad_synthetic_input() -> None:
         synthesize(CARBONS, experiments=("proton",))
     with pytest.raises(UsageError, match="no carbon data for solvent"):
         synthesize(CARBONS, solvent="unobtainium-d8")
+
+
+def test_write_sample_round_trip(tmp_path) -> None:
+    # The files written must load through the project's own sample loader and readers
+    # and give back the lines where the model put them.
+    pytest.importorskip("verify.readers.jcamp", reason="the JCAMP-DX writer is not there")
+    import tomllib
+
+    from verify.readers import read_any
+    from verify.sample import load_sample
+    from verify.simulate import write_sample
+
+    carbons = tuple(
+        SyntheticCarbon(c.ppm, c.multiplicity, c.carbons, width_hz=2.5) for c in CARBONS
+    )
+    path = write_sample(
+        tmp_path / "lot-7",
+        carbons,
+        structure="CC",
+        name="synthetic lot 7",
+        solvent="CDCl3",
+        metadata={"lot": "L-0007", "operator": "A. Example"},
+        points=32768,
+        snr=300.0,
+        seed=1,
+    )
+    data = tomllib.loads(path.read_text("utf-8"))
+    assert data["name"] == "synthetic lot 7" and data["lot"] == "L-0007"
+    assert set(data["spectra"]) == {"carbon", "dept90", "dept135"}
+    sample = load_sample(path)
+    spec = read_any(sample.spectra["dept135"], role="dept135")
+    y = np.asarray(spec.intensity)
+    ppm = np.asarray(spec.ppm)
+    # DEPT-135: CH2 at 30 ppm down, CH3 at 55.2 up (common practice)
+    assert y[np.argmin(np.abs(ppm - 30.0))] < 0 < y[np.argmin(np.abs(ppm - 55.2))]
+    with pytest.raises(UsageError, match="reserved"):
+        write_sample(tmp_path / "x", carbons, structure="CC", name="x", metadata={"spectra": "no"})
+    assert not (tmp_path / "x").exists()  # nothing written

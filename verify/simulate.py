@@ -584,9 +584,14 @@ def write_sample(
     from verify._files import atomic_write_text
     from verify.readers.jcamp import write_jcamp
 
+    meta_lines = []
+    for key, value in (metadata or {}).items():
+        if key in ("name", "structure", "structure_file", "solvent", "spectra"):
+            raise UsageError(f"metadata key {key!r} is reserved in the sample file")
+        meta_lines.append(f"{_toml_key(key)} = {_toml_value(value)}")
+    spectra = synthesize(carbons, solvent=solvent, **synth_kw)
     folder = Path(directory)
     folder.mkdir(parents=True, exist_ok=True)
-    spectra = synthesize(carbons, solvent=solvent, **synth_kw)
     files: dict[str, str] = {}
     for role, spectrum in spectra.items():
         filename = f"{role}.dx"
@@ -598,10 +603,7 @@ def write_sample(
     lines = [f"name = {_toml_value(name)}", f"structure = {_toml_value(structure)}"]
     if solvent is not None:
         lines.append(f"solvent = {_toml_value(solvent)}")
-    for key, value in (metadata or {}).items():
-        if key in ("name", "structure", "structure_file", "solvent", "spectra"):
-            raise UsageError(f"metadata key {key!r} is reserved in the sample file")
-        lines.append(f"{_toml_key(key)} = {_toml_value(value)}")
+    lines.extend(meta_lines)
     lines.append("")
     lines.append("[spectra]")
     lines.extend(f"{role} = {_toml_value(fn)}" for role, fn in files.items())
