@@ -63,6 +63,10 @@ PUBLISHED = [
     ("CC(=O)O", {0: 20.81, 1: 175.99}, "F"),
     # naphthalene [H]: C1 128.0, C2 125.9, C4a 133.6
     ("c1ccc2ccccc2c1", {0: 125.9, 1: 125.9, 2: 128.0, 3: 133.6}, "H"),
+    # methyl propanoate [H]: C=O 174.6, OCH3 51.5, CH2 27.5, CH3 9.2
+    ("CCC(=O)OC", {0: 9.2, 1: 27.5, 2: 174.6, 5: 51.5}, "H"),
+    # propionanilide [H]: C=O 172.3, C1 138.0, C2 119.9, C3 128.9, C4 124.2, CH2 30.7, CH3 9.7
+    ("CCC(=O)Nc1ccccc1", {0: 9.7, 1: 30.7, 2: 172.3, 5: 138.0, 6: 119.9, 7: 128.9, 8: 124.2}, "H"),
     # phenylacetylene [H]: C≡CH 77.2, C-C≡ 83.6 (ipso 122.2)
     ("C#Cc1ccccc1", {0: 77.2, 1: 83.6, 2: 122.2}, "H"),
 ]
@@ -109,6 +113,14 @@ def test_regioisomers_are_told_apart() -> None:
     assert para[6][0] - ortho[8][0] > 2.0
     assert abs(para[6][0] - 20.5) <= 2 * para[6][1]
     assert abs(ortho[8][0] - 16.3) <= 2 * ortho[8][1]
+
+
+def test_homologous_esters_are_told_apart() -> None:
+    # methyl acetate C=O 171.0 and methyl propanoate C=O 174.6 [H], from memory: the
+    # predictor must put the propanoate carbonyl higher (alpha-branching effect)
+    acetate = predict_atom_shifts(Chem.MolFromSmiles("CC(=O)OC"))[1][0]
+    propanoate = predict_atom_shifts(Chem.MolFromSmiles("CCC(=O)OC"))[2][0]
+    assert propanoate - acetate > 1.0
 
 
 def test_unusual_carbons_get_finite_predictions() -> None:

@@ -870,6 +870,16 @@ def _carbonyl(
     """Typical C=O shift by type, lowered when conjugated with a five-ring heteroaryl."""
     c = _tables()["carbonyl"]
     value, rough = _carbonyl_type(mol, atom, rest, rings)
+    # carbons on an sp3 alpha carbon deshield the carbonyl (acetic 177 < propanoic 181 <
+    # isobutyric 184; acetone 206.7 < 2-butanone 209.3)
+    for r in rest:
+        if (
+            _is_alkyl(mol, r)
+            and r.GetAtomicNum() == 6
+            and not mol.GetBondBetweenAtoms(atom.GetIdx(), r.GetIdx()).IsInRing()
+        ):
+            n_beta = sum(1 for w in _heavy(r, atom.GetIdx()) if w.GetAtomicNum() == 6)
+            value += c["alpha_branch"] * min(n_beta, 3)
     info = mol.GetRingInfo()
     het5 = [
         r
