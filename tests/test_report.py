@@ -555,3 +555,23 @@ def test_downsample_is_independent_of_axis_direction_and_keeps_extremes(
     assert np.array_equal(a[0], b[0]) and np.array_equal(a[1], b[1])
     assert a[1].max() == y.max() and a[1].min() == y.min()
     assert np.all(np.diff(a[0]) >= 0)
+
+
+def test_peak_list_without_spectrum_is_drawn_as_sticks() -> None:
+    from dataclasses import replace
+
+    from verify.model import Peak, PeakSet
+
+    v = make_verdict()
+    peaks = tuple(Peak(ppm=s.ppm, height=s.height or 1.0) for s in v.observation.signals)
+    obs = replace(
+        v.observation,
+        peaksets={"carbon": PeakSet(experiment="carbon", peaks=peaks, noise=0.0)},
+        experiments=("carbon",),
+        mode="carbon-only",
+    )
+    doc = parse(render_html(replace(v, observation=obs)))
+    sticks = doc.by_id("spectra").find_all("path", **{"class": "sticks"})
+    assert len(sticks) == 1
+    assert (sticks[0].attrs["d"] or "").count("M") == len(peaks)  # one stick per listed peak
+    assert "peak list" in doc.by_id("audit").text

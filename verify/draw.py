@@ -40,6 +40,7 @@ __all__ = [
     "MARK_STATUSES",
     "PALETTE",
     "Mark",
+    "Sticks",
     "glyph_svg",
     "minmax_downsample",
     "nice_step",
@@ -180,6 +181,38 @@ def minmax_downsample(
     return np.repeat(centres, 2), np.asarray(pair, dtype=np.float64).ravel()
 
 
+@dataclass(frozen=True)
+class Sticks:
+    """A peak list drawn as sticks (for data that come as a list, not a spectrum).
+
+    Parameters
+    ----------
+    ppm : tuple of float
+        Peak shifts in ppm.
+    height : tuple of float
+        Signed peak heights, arbitrary units.
+
+    """
+
+    ppm: tuple[float, ...]
+    height: tuple[float, ...]
+
+    def __post_init__(self) -> None:
+        if len(self.ppm) != len(self.height):
+            raise ValueError("a stick needs one height per shift")
+
+
+Trace = Spectrum | Sticks
+
+
+def _axis(t: Trace) -> npt.NDArray[np.float64]:
+    return np.asarray(t.ppm, dtype=np.float64)
+
+
+def _values(t: Trace) -> npt.NDArray[np.float64]:
+    return np.asarray(t.intensity if isinstance(t, Spectrum) else t.height, dtype=np.float64)
+
+
 # ----------------------------------------------------------------------- glyphs
 
 
@@ -297,14 +330,18 @@ def _lane_count(marks: Sequence[Mark], lo: float, hi: float, width: int) -> int:
     return max(lanes) + 1 if lanes else 0
 
 
-def stack_window(spectra: Sequence[Spectrum], marks: Sequence[Mark]) -> tuple[float, float]:
+def stack_window(spectra: Sequence[Trace], marks: Sequence[Mark]) -> tuple[float, float]:
     """Default ppm window of a stack: the marks' span ± 8 ppm, rounded to 10, within the data."""
     return _window(spectra, marks)
 
 
-def _window(spectra: Sequence[Spectrum], marks: Sequence[Mark]) -> tuple[float, float]:
-    data_lo = min(float(np.min(s.ppm)) for s in spectra)
-    data_hi = max(float(np.max(s.ppm)) for s in spectra)
+def _window(spectra: Sequence[Trace], marks: Sequence[Mark]) -> tuple[float, float]:
+    axes = [_axis(s) for s in spectra if _axis(s).size]
+    if not axes:
+        axes = [np.array([-10.0, 230.0])]  # an empty peak list: the usual carbon range
+    pad = [0.0 if isinstance(s, Spectrum) else 10.0 for s in spectra if _axis(s).size] or [0.0]
+    data_lo = min(float(np.min(a)) - p for a, p in zip(axes, pad, strict=True))
+    data_hi = max(float(np.max(a)) + p for a, p in zip(axes, pad, strict=True))
     if not marks:
         return data_lo, data_hi
     lo = math.floor((min(m.ppm for m in marks) - 8.0) / 10.0) * 10.0
@@ -313,9 +350,9 @@ def _window(spectra: Sequence[Spectrum], marks: Sequence[Mark]) -> tuple[float, 
     return (lo, hi) if hi > lo else (data_lo, data_hi)
 
 
-def _scale(spec: Spectrum, lo: float, hi: float, marks: Sequence[Mark]) -> float:
+def _scale(spec: Trace, lo: float, hi: float, marks: Sequence[Mark]) -> float:
     """Height (spectrum units) that fills a panel: the tallest point that is not solvent."""
-    x, y = spec.ppm, np.abs(spec.intensity)
+    x, y = _axis(spec), np.abs(_values(spec))
     keep = (x >= lo) & (x <= hi)
     for m in marks:
         if m.status == "solvent":
@@ -345,7 +382,7 @@ def _lanes(items: Sequence[tuple[float, float]], gap: float = 6.0) -> list[int]:
 
 
 def spectrum_stack_svg(
-    traces: Sequence[tuple[str, Spectrum]],
+    traces: Sequence[tuple[str, Trace]],
     marks: Sequence[Mark] = (),
     *,
     notes: dict[str, str] | None = None,
@@ -358,7 +395,7 @@ def spectrum_stack_svg(
 
     Parameters
     ----------
-    traces : sequence of (role, Spectrum)
+    traces : sequence of (role, Spectrum or Sticks)
         Role is one of the experiment names; panels are drawn in the order
         carbon, DEPT-90, DEPT-135, DEPT-45, APT whatever the input order.
     marks : sequence of Mark
@@ -465,7 +502,15 @@ def spectrum_stack_svg(
         base = y0 + h * (0.5 if signed else 0.88)
         amp = h * (0.46 if signed else 0.84)
         scale = _scale(spec, lo, hi, marks)
-        xs, ys = minmax_downsample(spec.ppm, spec.intensity, bins, lo, hi)
+        if isinstance(spec, Spectrum):
+            xs, ys = minmax_downsample(spec.ppm, spec.intensity, bins, lo, hi)
+        else:
+            xs, ys = np.empty(0), np.empty(0)
+            sticks = " ".join(
+                f"M{px(p):.1f} {base:.1f}V{base - v / scale * amp:.1f}"
+                for p, v in zip(spec.ppm, spec.height, strict=True)
+                if lo <= p <= hi
+            )
         out.append(
             f'<rect x="{left:.1f}" y="{y0:.1f}" width="{plot_w:.1f}" height="{h:.1f}" '
             f'fill="#fbfcfd" stroke="{PALETTE["rule"]}" stroke-width="0.8"/>'
@@ -474,6 +519,11 @@ def spectrum_stack_svg(
             f'<path d="M{left:.1f} {base:.1f}H{left + plot_w:.1f}" stroke="{PALETTE["rule"]}" '
             f'stroke-width="0.6"/>'
         )
+        if not isinstance(spec, Spectrum) and sticks:
+            out.append(
+                f'<path class="sticks" clip-path="url(#{uid}-p{i})" d="{sticks}" '
+                f'stroke="{PALETTE["trace"]}" stroke-width="1.4"/>'
+            )
         if xs.size:
             pts = " ".join(
                 f"{px(a):.1f},{base - b / scale * amp:.1f}" for a, b in zip(xs, ys, strict=True)

@@ -49,6 +49,7 @@ from verify.draw import (
     MARK_STATUSES,
     PANEL_ORDER,
     Mark,
+    Sticks,
     crowded_windows,
     glyph_svg,
     spectrum_stack_svg,
@@ -392,12 +393,19 @@ def _other_rows(groups: Sequence[Sequence[_SignalView]], loose: set[int]) -> lis
     return rows
 
 
-def _traces(verdict: Verdict) -> list[tuple[str, Spectrum]]:
-    out = []
+def _traces(verdict: Verdict) -> list[tuple[str, Spectrum | Sticks]]:
+    """Per experiment, its spectrum, or its peaks as sticks when only a list was given."""
+    out: list[tuple[str, Spectrum | Sticks]] = []
     for role in PANEL_ORDER:
         ps = verdict.observation.peaksets.get(role)
-        if ps is not None and ps.spectrum is not None:
+        if ps is None:
+            continue
+        if ps.spectrum is not None:
             out.append((role, ps.spectrum))
+        elif ps.peaks:
+            out.append(
+                (role, Sticks(tuple(p.ppm for p in ps.peaks), tuple(p.height for p in ps.peaks)))
+            )
     return out
 
 
@@ -674,7 +682,8 @@ def render_html(
     views = _signal_views(verdict)
     notes = dict.fromkeys(obs.inverted, "stored phase inverted, corrected")
     traces = _traces(verdict)
-    groups = _groups(views, traces[0][1].observe_mhz if traces else 100.0)
+    spectra = [t for _, t in traces if isinstance(t, Spectrum)]
+    groups = _groups(views, spectra[0].observe_mhz if spectra else 100.0)
     marks = [_group_mark(g) for g in groups]
     stack, expansions = "", []
     if traces:
