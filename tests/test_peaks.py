@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import warnings
 
 import numpy as np
@@ -175,6 +176,7 @@ EXPECTED = [
 ]
 
 
+@functools.cache
 def _carbon(path):
     readers = pytest.importorskip("verify.readers")
     from verify.process import prepare

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import warnings
 
 import numpy as np
@@ -186,6 +187,7 @@ CDCL3_CARBON = [
 ]
 
 
+@functools.cache
 def _read(path):
     readers = pytest.importorskip("verify.readers")
     from verify.process import prepare
