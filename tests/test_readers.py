@@ -792,3 +792,24 @@ def test_analogue_fid_has_no_group_delay() -> None:
     assert group_delay_points(8, 10, -1, 1)[0] == ng.fileio.bruker.bruker_dsp_table[10][8]
     with pytest.warns(CtallyWarning, match="no digital-filter delay known for DECIM=7"):
         assert group_delay_points(7, 10, -1, 1) == (0.0, "unknown")
+
+
+def test_disagreeing_axis_labels_are_settled_by_the_data_lines(tmp_path: Path) -> None:
+    # DELTAX off (the lines step 1 Hz per point): warn, keep LASTX's step
+    text = HEAD.format(n=8).replace("##DELTAX= 1", "##DELTAX= 1.5") + GOOD_DATA
+    with pytest.warns(CtallyWarning, match=r"##DELTAX= 1\.5 disagrees"):
+        spec = read_jcamp(_file(tmp_path, "dx.dx", text))
+    np.testing.assert_allclose(np.diff(spec.ppm), 0.01)
+    # LASTX off: DELTAX is what the lines confirm
+    text = HEAD.format(n=8).replace("##LASTX= 7", "##LASTX= 9") + GOOD_DATA
+    with pytest.warns(CtallyWarning, match=r"##LASTX= 9 disagrees"):
+        spec = read_jcamp(_file(tmp_path, "lx.dx", text))
+    np.testing.assert_allclose(spec.ppm[-1], 0.07)
+    # both off: the lines fit neither → refused with the line
+    text = (
+        HEAD.format(n=8).replace("##LASTX= 7", "##LASTX= 14").replace("##DELTAX= 1", "##DELTAX= 2")
+    )
+    with pytest.raises(
+        SpectrumFormatError, match=r"points are missing or extra.*both\.dx, line 16"
+    ):
+        read_jcamp(_file(tmp_path, "both.dx", text + GOOD_DATA))

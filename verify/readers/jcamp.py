@@ -781,6 +781,49 @@ def _x_check(dec: _Decoded, first: float, delta: float, xfactor: float, path: Pa
         )
 
 
+def _abscissa_step(
+    dec: _Decoded,
+    labels: dict[str, tuple[str, int]],
+    firstx: float,
+    lastx: float | None,
+    deltax: float | None,
+    n: int,
+    xfactor: float,
+    path: Path,
+) -> float:
+    """Abscissa step of an XYDATA table, checked against every line's abscissa.
+
+    ``(LASTX − FIRSTX)/(NPOINTS − 1)`` is preferred; when ``DELTAX`` disagrees, the
+    one that the data lines' own abscissae confirm is used and a warning names the
+    other.
+    """
+    if lastx is None and deltax is None:
+        raise SpectrumFormatError(
+            "neither ##LASTX= nor ##DELTAX= is given", path=path, line=labels["FIRSTX"][1]
+        )
+    if lastx is None or deltax is None:
+        delta = (lastx - firstx) / (n - 1) if lastx is not None else float(deltax or 0.0)
+        _x_check(dec, firstx, delta, xfactor, path)
+        return delta
+    from_last = (lastx - firstx) / (n - 1)
+    if math.isclose(from_last, deltax, rel_tol=1e-5, abs_tol=1e-12):
+        _x_check(dec, firstx, from_last, xfactor, path)
+        return from_last
+    try:
+        _x_check(dec, firstx, from_last, xfactor, path)
+        used, other = from_last, f"##DELTAX= {deltax:g}"
+    except SpectrumFormatError:
+        _x_check(dec, firstx, deltax, xfactor, path)  # raises when neither fits
+        used, other = deltax, f"##LASTX= {lastx:g}"
+    warnings.warn(
+        f"{path.name}: {other} disagrees with the other axis labels and the data lines;"
+        f" the step {used:g} that the lines confirm is used",
+        CtallyWarning,
+        stacklevel=4,
+    )
+    return used
+
+
 def _read_xydata(block: _Block, path: Path, dtype: str) -> Spectrum | Fid:
     labels = block.labels
     table = next((t for t in block.tables if t.label == "XYDATA"), block.tables[0])
@@ -821,21 +864,7 @@ def _read_xydata(block: _Block, path: Path, dtype: str) -> Spectrum | Fid:
         deltax = _num(labels, "DELTAX", path)
         if firstx is None:
             raise SpectrumFormatError("##FIRSTX= is missing", path=path, line=table.line)
-        if lastx is not None:
-            delta = (lastx - firstx) / (n - 1)
-            if deltax is not None and not math.isclose(delta, deltax, rel_tol=1e-5, abs_tol=1e-12):
-                raise SpectrumFormatError(
-                    f"##DELTAX= {deltax:g} disagrees with FIRSTX, LASTX and {n} points ({delta:g})",
-                    path=path,
-                    line=labels["DELTAX"][1],
-                )
-        elif deltax is not None:
-            delta = deltax
-        else:
-            raise SpectrumFormatError(
-                "neither ##LASTX= nor ##DELTAX= is given", path=path, line=table.line
-            )
-        _x_check(dec, firstx, delta, xfactor, path)
+        delta = _abscissa_step(dec, labels, firstx, lastx, deltax, n, xfactor, path)
         x = np.asarray(firstx + np.arange(n) * delta, dtype=np.float64)
         y = dec.y * yfactor
         _check_first_last(y, _num(labels, "FIRSTY", path), None, labels, "FIRSTY", path)
