@@ -89,6 +89,8 @@ APT_SPREAD = 0.35
 CHI2_CAP = 400.0
 #: Log spread of the unit-response SNR between DEPT experiments of one sample.
 SCALE_SPREAD = 0.7
+#: Score cost of reading a DEPT-135/APT with the opposite of its stored phase.
+FLIP_PRIOR = 2.2
 #: Cap of one signal's score in the global scale/sign fit.
 ROW_CAP = 25.0
 #: Below this fraction of a typical carbon, an edited-only peak is a minor component
@@ -584,7 +586,7 @@ def _scale_prior(data: _Data, scale: npt.NDArray[np.float64]) -> float:
 
 def _fit_globals(
     data: _Data, peaksets: Mapping[str, PeakSet]
-) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64]]:
+) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64], float]:
     """Experiment scales and signs that minimise the total score (profile likelihood).
 
     DEPT-90 and DEPT-45 show only positive signals at their nominal angles, so their
@@ -619,6 +621,7 @@ def _fit_globals(
     base = -1 if np.any(has_c) else 0
     best_total = math.inf
     best_scale, best_sign = start.copy(), fixed_sign.copy()
+    totals: list[float] = []
     for combo in itertools.product((1.0, -1.0), repeat=len(free)):
         sign = fixed_sign.copy()
         for k, sg in zip(free, combo, strict=True):
@@ -642,9 +645,16 @@ def _fit_globals(
                         total, scale = t, trial
             if sweep > 0 and total > before - 1e-6:
                 break
+        # the stored phase is more often right than not (processed exports are usually
+        # phased CH/CH3 up; common practice): flipping it costs FLIP_PRIOR
+        total += FLIP_PRIOR * sum(1 for sg in combo if sg < 0)
+        totals.append(total)
         if total < best_total - 1e-9:
             best_total, best_scale, best_sign = total, scale, sign
-    return best_scale, best_sign
+    # probability that the chosen signs are right, against the other combinations
+    weights = np.exp(-0.5 * (np.asarray(totals) - best_total))
+    sign_p = float(1.0 / weights.sum())
+    return best_scale, best_sign, sign_p
 
 
 # ------------------------------------------------------------------ decisions
@@ -811,7 +821,14 @@ def classify(
             if r.carbon is not None:
                 r.carbon = _negated(r.carbon)
     data = _prepare(rows, peaksets, edited, offsets)
-    scale, sign = _fit_globals(data, peaksets)
+    scale, sign, sign_p = _fit_globals(data, peaksets)
+    if sign_p < 0.95:
+        phased = " and ".join(_NAMES[e] for e in edited if e in ("dept135", "apt"))
+        notes.append(
+            f"The overall phase of {phased} "
+            f"is not settled firmly by the data (probability {sign_p:.2f} for the reading used); "
+            "confidences are lowered accordingly."
+        )
     for k, e in enumerate(edited):
         if sign[k] < 0:
             inverted.append(e)
@@ -827,7 +844,8 @@ def classify(
                         why,
                     )
     signals = [
-        _decide(i, row, data, fit, scale, sign, mode, solvent_name) for i, row in enumerate(rows)
+        _decide(i, row, data, fit, scale, sign, mode, solvent_name, sign_p)
+        for i, row in enumerate(rows)
     ]
     signals = _carbon_hints(signals, mode)
     missing = [r for r in rows if r.carbon is None and r.role == "sample" and "carbon" in peaksets]
@@ -980,6 +998,7 @@ def _decide(
     sign: npt.NDArray[np.float64],
     mode: str,
     solvent: str,
+    sign_p: float = 1.0,
 ) -> Signal:
     carbon = row.carbon
     height = carbon.height if carbon is not None else 0.0
@@ -1027,6 +1046,8 @@ def _decide(
     order = np.argsort(-post)
     m_best = int(order[0])
     conf = float(post[m_best])
+    if m_best != 0:  # a quaternary call does not depend on the phase
+        conf *= sign_p
     chi_best = float(fit.chi2[i, m_best])
     e_count = len(data.edited)
     if chi_best > 4.0 + 3.0 * e_count:
