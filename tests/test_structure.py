@@ -194,6 +194,29 @@ def test_isopropyl_next_to_stereocentre_is_split() -> None:
     assert class_of(exp, 0) is not class_of(exp, 2)
 
 
+@pytest.mark.parametrize(
+    ("smiles", "count", "pair"),
+    [
+        ("CC(C)C[C@H](N)C(=O)O", 6, (0, 2)),  # L-leucine: delta-methyls ~ 21.5/22.8 ppm
+        ("CC1(C)[C@@H]2CC[C@@]1(C)C(=O)C2", 10, (0, 2)),  # camphor: C8/C9 ~ 19.2/19.8 ppm
+        (  # cholesterol: 27 signals, C26/C27 ~ 22.6/22.8 ppm
+            "C[C@H](CCCC(C)C)[C@H]1CC[C@@H]2[C@@]1(CC[C@H]3[C@H]2CC=C4[C@@]3(CC[C@@H](C4)O)C)C",
+            27,
+            (6, 7),
+        ),
+    ],
+)
+def test_natural_products_diastereotopic_methyls(
+    smiles: str, count: int, pair: tuple[int, int]
+) -> None:
+    # Textbook spectra from memory (Breitmaier & Voelter 3rd ed. 1987 shift tables):
+    # the two methyls of each pair give separate peaks.
+    exp = expected_inventory(smiles)
+    assert len(exp.classes) == count
+    a, b = (class_of(exp, i) for i in pair)
+    assert a is not b and "diastereotopic" in a.flags and exp.classes[a.partner] is b
+
+
 def test_gem_dimethyl_between_like_and_unlike_centres() -> None:
     # Symmetry (common practice): in 3,3-dimethylpentane-2,4-diol the gem-dimethyls are
     # homotopic in the C2-symmetric (R,R) isomer and diastereotopic in the meso isomer.

@@ -178,7 +178,8 @@ def _parse_smiles(text: str) -> Chem.Mol:
             f"cannot parse SMILES {text!r}: {reason}{where}; "
             "check brackets, ring-closure digits and atom symbols"
         )
-    problems = Chem.DetectChemistryProblems(mol)
+    with _captured_log():
+        problems = Chem.DetectChemistryProblems(mol)
     if problems:
         p = problems[0]
         atom = ""
