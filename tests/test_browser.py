@@ -21,7 +21,7 @@ from _report_cases import make_sample, make_verdict
 from html_nodes import parse
 
 from verify.model import Finding
-from verify.report import chromium_command, find_browser, write_html, write_pdf
+from verify.report import chromium_command, find_browser, html_to_pdf, write_html, write_pdf
 
 pytestmark = pytest.mark.browser
 
@@ -103,6 +103,11 @@ def test_report_prints_to_pdf(browser: str, tmp_path: Path) -> None:
     assert size in {(595, 842), (612, 792)}
     ARTIFACTS.mkdir(exist_ok=True)
     (ARTIFACTS / "report.pdf").write_bytes(data)
+    # asked for A4, the page box is A4 (ISO 216: 210 × 297 mm = 595 × 842 pt)
+    a4 = html_to_pdf(page.read_text(encoding="utf-8"), tmp_path / "a4.pdf", paper="A4")
+    box = re.search(rb"/MediaBox\s*\[\s*0\s+0\s+([\d.]+)\s+([\d.]+)\s*\]", a4.read_bytes())
+    assert box is not None
+    assert (round(float(box.group(1))), round(float(box.group(2)))) == (595, 842)
 
 
 def test_example_report_in_the_browser(browser: str, tmp_path: Path) -> None:

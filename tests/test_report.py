@@ -23,7 +23,7 @@ from rdkit import Chem
 
 from verify import __version__
 from verify.draw import Mark, minmax_downsample, spectrum_stack_svg, structure_svg
-from verify.errors import InputFileError, ToolMissingError
+from verify.errors import InputFileError, ToolMissingError, UsageError
 from verify.model import Finding, Sample, Signal
 from verify.report import (
     CAUTION,
@@ -432,6 +432,8 @@ def test_write_pdf_without_chromium_says_so(
         write_pdf(html, tmp_path / "r.pdf")
     with pytest.raises(InputFileError, match="no HTML report"):
         write_pdf(tmp_path / "none.html", tmp_path / "r.pdf")
+    with pytest.raises(UsageError, match="use A4 or Letter"):
+        write_pdf(html, tmp_path / "r.pdf", paper="A5")
     assert not (tmp_path / "r.pdf").exists()
 
 

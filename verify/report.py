@@ -56,7 +56,7 @@ from verify.draw import (
     stack_window,
 )
 from verify.draw import structure_svg as _structure_svg
-from verify.errors import InputFileError, ToolMissingError
+from verify.errors import InputFileError, ToolMissingError, UsageError
 from verify.model import MULTIPLICITIES, Sample, Signal, Spectrum, Verdict
 
 __all__ = [
@@ -859,6 +859,7 @@ def write_pdf(
     *,
     browser: str | None = None,
     timeout_s: float = 120.0,
+    paper: str | None = None,
 ) -> Path:
     """Print an HTML report to PDF with a headless Chromium.
 
@@ -872,6 +873,9 @@ def write_pdf(
         Chromium executable; by default ``chromium`` or ``chromium-browser`` on PATH.
     timeout_s : float
         Seconds to wait for the browser.
+    paper : {"A4", "Letter"} or None
+        Paper size; None leaves it to the browser's default (Letter for Chromium's
+        default locale).  The page layout fits both (ISO 216 A4 and ANSI Letter).
 
     Returns
     -------
@@ -884,6 +888,8 @@ def write_pdf(
         No Chromium is installed, or it ran and produced no PDF.
     InputFileError
         The HTML file is missing or the PDF folder does not exist.
+    UsageError
+        `paper` is neither A4 nor Letter.
 
     """
     src, dst = Path(html_path).resolve(), Path(pdf_path)
@@ -893,6 +899,11 @@ def write_pdf(
         raise InputFileError(
             f"cannot write {dst.name}: the folder {dst.parent} does not exist", path=dst
         )
+    size = None
+    if paper is not None:
+        size = {"a4": "A4", "letter": "letter"}.get(paper.strip().lower())
+        if size is None:
+            raise UsageError(f"paper size {paper!r} is not known; use A4 or Letter")
     exe = browser or find_browser()
     if exe is None:
         raise ToolMissingError(
@@ -902,6 +913,12 @@ def write_pdf(
         )
     with tempfile.TemporaryDirectory(prefix="ctally-chromium-") as profile:
         out = Path(profile) / "report.pdf"
+        if size is not None:  # a copy of the page that asks for the paper size
+            page = Path(profile) / "sized.html"
+            text = src.read_text(encoding="utf-8")
+            rule = f"<style>@page {{ size: {size}; }}</style>"
+            page.write_text(text.replace("</head>", rule + "</head>", 1), encoding="utf-8")
+            src = page
         cmd = chromium_command(
             exe,
             Path(profile) / "profile",
@@ -927,7 +944,13 @@ def write_pdf(
     return _atomic_write(dst, data)
 
 
-def html_to_pdf(html: str, pdf_path: str | os.PathLike[str], *, browser: str | None = None) -> Path:
+def html_to_pdf(
+    html: str,
+    pdf_path: str | os.PathLike[str],
+    *,
+    browser: str | None = None,
+    paper: str | None = None,
+) -> Path:
     """Print HTML text (as made by :func:`render_html`) to a PDF file.
 
     The text is written to a temporary file and printed with :func:`write_pdf`.
@@ -943,4 +966,4 @@ def html_to_pdf(html: str, pdf_path: str | os.PathLike[str], *, browser: str | N
     with tempfile.TemporaryDirectory(prefix="ctally-report-") as folder:
         src = Path(folder) / "report.html"
         src.write_text(html, encoding="utf-8")
-        return write_pdf(src, pdf_path, browser=browser)
+        return write_pdf(src, pdf_path, browser=browser, paper=paper)
