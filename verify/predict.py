@@ -412,7 +412,7 @@ def _six_ring(
                 if len(fused) == 5:
                     key = {"C": "C5", "N": "N5", "n": "n5", "O": "O5", "S": "S5"}.get(letter, "")
                 else:
-                    key = {"C": "C", "n": "n6", "N": "n6", "O": "O6"}.get(letter, "")
+                    key = {"C": "C", "n": "n6", "N": "N6", "O": "O6"}.get(letter, "")
                 incr, _ = _lookup(table, (key,))
             else:
                 incr, found = _lookup(t["substituents"], _group(mol, y_idx, z))
