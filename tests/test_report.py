@@ -577,3 +577,19 @@ def test_peak_list_without_spectrum_is_drawn_as_sticks() -> None:
     assert len(sticks) == 1
     assert (sticks[0].attrs["d"] or "").count("M") == len(peaks)  # one stick per listed peak
     assert "peak list" in doc.by_id("audit").text
+
+
+def test_signal_shared_by_sample_and_impurity_keeps_both_names() -> None:
+    from dataclasses import replace
+
+    from verify.model import Impurity
+
+    v = make_verdict()
+    i = next(k for k, s in enumerate(v.observation.signals) if s.ppm == SHIFTS[7])  # acetyl CH3
+    v = replace(v, impurities=(Impurity(name="acetone", signals=(i,), mol_percent=0.5),))
+    doc = parse(render_html(v))
+    mark = doc.by_id("spectra").find_all("g", data_ppm=f"{SHIFTS[7]:.2f}")[0]
+    assert mark.attrs["data-status"] == "impurity"
+    assert "C8" in mark.text and "acetone" in mark.text
+    row = doc.by_id("assignment").find_all("tr", data_atoms="C8")[0]
+    assert "shared with acetone" in row.text

@@ -319,7 +319,9 @@ def _mark_for(v: _SignalView) -> Mark:
     call = s.multiplicity or "?"
     shown = s.multiplicity or ""  # carbon-only data: no call to show beside the atom
     short = ""
-    if v.status in ("solvent", "impurity", "artifact"):
+    if v.status in ("solvent", "impurity", "artifact") and v.atoms:  # shared with the sample
+        text, short = f"{v.atoms} {shown} + {v.name}", v.atoms
+    elif v.status in ("solvent", "impurity", "artifact"):
         text = v.name if v.name == v.status else f"{v.name} ({v.status})"
     elif not v.atoms:
         word = "unexplained" if v.status == "mismatch" else "unassigned"
@@ -510,7 +512,12 @@ def _assignment_rows(verdict: Verdict, views: Sequence[_SignalView]) -> list[dic
         for v in hits:
             s = v.signal
             delta = None if cls.predicted_ppm is None else s.ppm - cls.predicted_ppm
-            ok = v.status == "agree"
+            word = {
+                "agree": "agrees",
+                "impurity": f"shared with {v.name}",
+                "solvent": f"under {v.name}",
+                "artifact": "on an artifact",
+            }.get(v.status, "mismatch")
             rows.append(
                 {
                     "label": cls.label,
@@ -522,7 +529,7 @@ def _assignment_rows(verdict: Verdict, views: Sequence[_SignalView]) -> list[dic
                     "confidence": s.confidence,
                     "delta": delta,
                     "status": v.status,
-                    "word": "agrees" if ok else "mismatch",
+                    "word": word,
                     "note": "; ".join(notes + ([s.reason] if s.reason else [])),
                     "carbons": cls.carbons,
                 }
