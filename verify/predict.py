@@ -414,6 +414,10 @@ def _six_ring(
                 else:
                     key = {"C": "C", "n": "n6", "N": "N6", "O": "O6"}.get(letter, "")
                 incr, _ = _lookup(table, (key,))
+                if d == 0 and next_to_n and z.GetAtomicNum() != 6:
+                    ppm += incr[0] * t["ipso_next_to_n"]
+                    n += 1
+                    continue
             else:
                 incr, found = _lookup(t["substituents"], _group(mol, y_idx, z))
                 if not found:
