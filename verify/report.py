@@ -702,7 +702,10 @@ def render_html(
             svg = spectrum_stack_svg(traces, marks, notes=notes, ppm_range=(a, b), title=title)
             expansions.append(Markup(svg))
     marked_atoms = sorted({a for f in verdict.findings if f.severity != "info" for a in f.atoms})
-    structure = _structure_svg(exp.molblock, marked_atoms) if exp.molblock else None
+    carbons = sum(c.carbons for c in exp.classes)
+    big = carbons > 18  # a large structure gets the full page width
+    size = (640, 440) if big else (440, 330)
+    structure = _structure_svg(exp.molblock, marked_atoms, size=size) if exp.molblock else None
     audit = dict(audit or {})
     now = _show_time(datetime.now(UTC))
     severity_rank = {"fail": 0, "review": 1, "info": 2}
@@ -728,6 +731,7 @@ def render_html(
             (Markup(_legend_glyph(st)), STATUS_WORDS[st]) for st in shown_statuses or ["agree"]
         ],
         "structure": Markup(structure) if structure else None,
+        "big_structure": big,
         "marked_atoms": _atom_list(marked_atoms),
         "inventory": _inventory_rows(verdict),
         "assignment": _assignment_rows(verdict, views),
