@@ -234,6 +234,9 @@ def test_unspecified_relative_configuration_keeps_finest_split() -> None:
     assert a is not b and "diastereotopic" in a.flags
     assert exp.classes[a.partner] is b
     assert class_of(exp, 0) is class_of(exp, 8)
+    # one centre given, the other not: still both relative configurations are tried
+    half = expected_inventory("C[C@@H](O)C(C)(C)C(O)C")
+    assert class_of(half, 4) is not class_of(half, 5)
 
 
 @pytest.mark.parametrize(

@@ -332,10 +332,7 @@ def _exchange_normalise(mol: Chem.Mol) -> tuple[Chem.Mol, set[int]]:
         h = a.GetTotalNumHs()
         a.SetNoImplicit(True)
         a.SetNumExplicitHs(h)
-    for c, o1, o2 in [
-        (m[0], m[1], m[2]) for m in mol.GetSubstructMatches(_PATTERNS["carboxylate"])
-    ]:
-        del c, o1
+    for _c, _o1, o2 in mol.GetSubstructMatches(_PATTERNS["carboxylate"]):
         o = rw.GetAtomWithIdx(o2)
         o.SetFormalCharge(0)
         o.SetNumExplicitHs(1)
@@ -621,7 +618,6 @@ def _double_partner(mol: Chem.Mol, atom: Chem.Atom) -> Chem.Atom | None:
 
 def _carbonyl_env(mol: Chem.Mol, atom: Chem.Atom, hetero: Chem.Atom) -> str:
     others = [n for n in _heavy_neighbours(atom) if n.GetIdx() != hetero.GetIdx()]
-    el = sorted(n.GetSymbol() for n in others)
     if hetero.GetAtomicNum() == 16:
         return "thiocarbonyl"
     n_o = sum(1 for n in others if n.GetAtomicNum() == 8)
@@ -661,7 +657,6 @@ def _carbonyl_env(mol: Chem.Mol, atom: Chem.Atom, hetero: Chem.Atom) -> str:
         return "carbonyl-thioester"
     if atom.GetTotalNumHs() > 0 or len(others) < 2:
         return "carbonyl-aldehyde"
-    del el
     return "carbonyl-ketone"
 
 
@@ -854,10 +849,6 @@ def _aromatic_env(mol: Chem.Mol, atom: Chem.Atom) -> str:
 # ---------------------------------------------------------------------- couplings
 
 
-def _distances(mol: Chem.Mol) -> Any:
-    return Chem.GetDistanceMatrix(mol)
-
-
 def _fluorine_kind(mol: Chem.Mol, f: Chem.Atom) -> str:
     c = f.GetNeighbors()[0]
     nf = sum(1 for n in c.GetNeighbors() if n.GetAtomicNum() == 9)
@@ -970,30 +961,36 @@ _VARIANTS = 3
 def _configuration_variants(frag: Chem.Mol) -> list[frozenset[int]]:
     """Flip sets for other relative configurations of unspecified stereo elements.
 
-    Empty when fewer than two stereo elements are unspecified (one alone only makes
-    the enantiomer, which has the same classes).  Deterministic (seeded).
+    Empty unless some stereo element is unspecified and there are at least two in
+    all (a lone one only makes the mirror image or the other planar isomer, with the
+    same classes).  Up to three unspecified elements every relative configuration is
+    tried; beyond that ``_VARIANTS`` seeded random ones.
     """
     n_atoms = frag.GetNumAtoms()
-    elements = []
+    unspecified = []
+    specified = 0
     for si in Chem.FindPotentialStereo(frag):
-        if si.specified != Chem.StereoSpecified.Unspecified:
-            continue
         if si.type == Chem.StereoType.Atom_Tetrahedral:
-            elements.append(si.centeredOn)
+            element = si.centeredOn
         elif si.type == Chem.StereoType.Bond_Double:
-            elements.append(n_atoms + si.centeredOn)
-    if len(elements) < 2:
+            element = n_atoms + si.centeredOn
+        else:
+            continue
+        if si.specified == Chem.StereoSpecified.Unspecified:
+            unspecified.append(element)
+        else:
+            specified += 1
+    n = len(unspecified)
+    if n == 0 or n + specified < 2:
         return []
-    rng = random.Random(len(elements))
+    if n <= 3:
+        # with nothing specified, flipping everything gives the mirror image: skip half
+        masks = range(1, 2**n if specified else 2 ** (n - 1))
+        return [frozenset(e for k, e in enumerate(unspecified) if m >> k & 1) for m in masks]
+    rng = random.Random(n)
     variants: list[frozenset[int]] = []
-    if len(elements) <= 3:
-        subsets = [
-            frozenset(e for k, e in enumerate(elements) if mask >> k & 1)
-            for mask in range(1, 2 ** (len(elements) - 1))
-        ]
-        return subsets
     while len(variants) < _VARIANTS:
-        pick = frozenset(e for e in elements if rng.random() < 0.5)
+        pick = frozenset(e for e in unspecified if rng.random() < 0.5)
         if pick and pick not in variants:
             variants.append(pick)
     return variants
