@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import argparse
 import collections
+import dataclasses
 import gzip
 import random
 import sys
@@ -47,10 +48,11 @@ from rdkit.Chem.rdMolDescriptors import CalcMolFormula
 from verify.errors import CtallyError, CtallyWarning
 from verify.model import HYDROGENS, MULTIPLICITIES, Expectation, Observation, Referencing, Signal
 from verify.structure import expected_inventory
-from verify.verdict import judge
+from verify.verdict import VerdictConfig, judge
 
 RDLogger.DisableLog("rdApp.*")
 PREDICT_ERRORS: collections.Counter[str] = collections.Counter()
+CONFIG = VerdictConfig()
 DATA = Path(__file__).resolve().parents[2] / "shared" / "data" / "shifts" / "nmr8k-public.sdf.gz"
 
 
@@ -242,7 +244,7 @@ def run_model(
         if exp is None:
             continue
         obs = observe(rec, model, rng)
-        v = judge(exp, obs)
+        v = judge(exp, obs, config=CONFIG)
         n_judged += 1
         true_v[v.verdict] += 1
         worst = [f for f in v.findings if f.severity == v.verdict] if v.verdict != "pass" else []
@@ -259,7 +261,7 @@ def run_model(
             assert dexp is not None
             if dexp.structure == exp.structure:
                 continue  # the same compound recorded twice
-            dv = judge(dexp, obs)
+            dv = judge(dexp, obs, config=CONFIG)
             n_judged += 1
             kind = "differs" if inventory_key(dexp) != inventory_key(exp) else "same"
             decoy[kind][dv.verdict] += 1
@@ -322,7 +324,7 @@ def run_spectra(records: list[Record], exps: list[Expectation | None], n: int, s
         if obs is None:
             continue
         done += 1
-        v = judge(exp, obs)
+        v = judge(exp, obs, config=CONFIG)
         counts[v.verdict] += 1
         if v.verdict != "pass":
             for code in {f.code for f in v.findings if f.severity == v.verdict}:
@@ -333,7 +335,7 @@ def run_spectra(records: list[Record], exps: list[Expectation | None], n: int, s
             if dexp.structure == exp.structure:
                 continue
             kind = "differs" if inventory_key(dexp) != inventory_key(exp) else "same"
-            decoy[kind][judge(dexp, obs).verdict] += 1
+            decoy[kind][judge(dexp, obs, config=CONFIG).verdict] += 1
     dt = time.perf_counter() - t0
     print(f"\n== synthetic spectra → pick → classify ({done} records, {dt:.0f} s) ==")
     print(f"  pass     : {pct(counts['pass'], done)}")
@@ -354,7 +356,19 @@ def main() -> int:
     ap.add_argument("--max-decoys", type=int, default=5)
     ap.add_argument("--spectra", type=int, default=0, help="also run N records through spectra")
     ap.add_argument("--seed", type=int, default=20260)
+    ap.add_argument(
+        "--set", action="append", default=[], metavar="NAME=VALUE", help="VerdictConfig field"
+    )
     args = ap.parse_args()
+    global CONFIG
+    fields = {f.name: f.type for f in dataclasses.fields(VerdictConfig)}
+    changes = {}
+    for item in args.set:
+        name, _, value = item.partition("=")
+        changes[name] = int(value) if fields[name] in ("int", int) else float(value)
+    CONFIG = VerdictConfig(**changes)
+    if changes:
+        print(f"config changes: {changes}")
     if not DATA.exists():
         print(f"shift set not found: {DATA}")
         return 1

@@ -290,3 +290,70 @@ def test_config_thresholds_are_honoured() -> None:
     obs = observe(TOLUENE, extra=imp)
     strict = VerdictConfig(impurity_fail_mol_percent=5.0)
     assert judge(expect("Cc1ccccc1"), obs, config=strict).verdict == "fail"
+
+
+# ------------------------------------------------------------- through synthetic spectra
+
+
+def _through_spectra(carbons: list[tuple[float, str, int]], seed: int) -> Observation:
+    """Synthetic carbon/DEPT-90/DEPT-135 spectra → reference → pick → classify."""
+    simulate = pytest.importorskip("verify.simulate")
+    peaks = pytest.importorskip("verify.peaks")
+    classify = pytest.importorskip("verify.classify")
+    reference = pytest.importorskip("verify.reference")
+    synth = [simulate.SyntheticCarbon(ppm=p, multiplicity=m, carbons=n) for p, m, n in carbons]
+    spectra = simulate.synthesize(synth, snr=80.0, seed=seed, solvent="CDCl3")
+    spectra, ref = reference.reference_sample(spectra, "CDCl3")
+    picked = {
+        role: peaks.pick_peaks(sp, role, solvent="CDCl3", referencing=ref)
+        for role, sp in spectra.items()
+    }
+    return classify.classify(picked, referencing=ref, solvent="CDCl3")
+
+
+@pytest.fixture(scope="module")
+def etoac_spectra() -> Observation:
+    return _through_spectra(ETOAC, seed=11)
+
+
+@pytest.mark.slow
+def test_spectra_ethyl_acetate_passes_and_isomers_fail(etoac_spectra: Observation) -> None:
+    assert judge(expect_predicted("CCOC(C)=O"), etoac_spectra).verdict == "pass"
+    for decoy in ("CCCC(=O)O", "CCC(=O)OC", "CCCOC(C)=O", "COC(C)=O"):
+        v = judge(expect_predicted(decoy), etoac_spectra)
+        assert v.verdict == "fail", format_verdict(v)
+
+
+@pytest.mark.slow
+def test_spectra_toluene_with_ethyl_acetate_impurity() -> None:
+    # Toluene with ethyl acetate at 1/3 of its amount (carbons scaled 3:1): 25 mol %.
+    sample = [(p, m, n * 3) for p, m, n in TOLUENE] + ETOAC
+    obs = _through_spectra(sample, seed=12)
+    v = judge(expect_predicted("Cc1ccccc1"), obs)
+    assert v.verdict == "review", format_verdict(v)
+    names = [i.name for i in v.impurities]
+    assert "ethyl acetate" in names, format_verdict(v)
+    (etoac,) = [i for i in v.impurities if i.name == "ethyl acetate"]
+    # Heights are NOE-weighted and jittered in the simulation: the estimate is rough.
+    assert etoac.mol_percent is not None and 10.0 < etoac.mol_percent < 45.0
+
+
+def test_carbon_hidden_under_solvent_is_review_not_fail() -> None:
+    # Constructed case: the OCH2 of ethyl acetate (60.49) coincides with a signal the
+    # classifier labelled as solvent, so it has no sample signal of its own.
+    peaks = [p for p in ETOAC if p[1] != "CH2"]
+    hiding = Signal(ppm=60.5, multiplicity=None, confidence=1.0, role="solvent", height=50.0)
+    v = judge(expect_predicted("CCOC(C)=O"), observe(peaks, extra=[hiding]))
+    assert v.verdict == "review", format_verdict(v)
+    assert any("under the solvent signal at 60.50 ppm" in f.message for f in v.findings)
+    # Without the solvent signal the missing CH2 is a fail.
+    assert judge(expect_predicted("CCOC(C)=O"), observe(peaks)).verdict == "fail"
+
+
+def test_split_class_is_review() -> None:
+    # Constructed case: toluene's ortho CH pair (C3/C7) shows as two lines 0.3 ppm apart,
+    # as hindered rotation would make it; reviewed, not failed, and not passed.
+    peaks = [p for p in TOLUENE if p[0] != 129.07] + [(129.20, "CH", 1), (128.90, "CH", 1)]
+    v = judge(expect_predicted("Cc1ccccc1"), observe(peaks))
+    assert v.verdict == "review", format_verdict(v)
+    assert "split-class" in codes(v)

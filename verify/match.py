@@ -7,6 +7,9 @@ The assignment is the minimum-cost matching of sample signals to carbon classes 
   (``CarbonClass.partner``) at a small cost, any other coincidence (accidental overlap) at a
   larger one, which is smaller again when the signal is tall enough for two carbons or its
   edited-spectrum behaviour is mixed;
+* a class of several symmetry-equivalent carbons may take a second signal within
+  ``split_window_ppm`` of its first (hindered rotation, diastereotopic groups that the
+  topology calls equivalent), at a cost;
 * a sample signal may stay unassigned (an unexplained peak, at a cost that falls with SNR).
 
 The pair cost of a class on a signal adds (see :func:`pair_cost`): multiplicity agreement
@@ -135,7 +138,7 @@ def pair_cost(cls: CarbonClass, signal: Signal, config: VerdictConfig | None = N
     elif how == "candidate":
         cost += cfg.candidate_cost * signal.confidence
     d = range_distance(cls, signal.ppm)
-    cost += (d / cfg.range_scale_ppm) ** 2
+    range_cost = (d / cfg.range_scale_ppm) ** 2
     lo, hi = cls.shift_range
     cost += _TIEBREAK * abs(signal.ppm - 0.5 * (lo + hi)) / (hi - lo + 1.0)
     if cls.predicted_ppm is not None:
@@ -143,6 +146,10 @@ def pair_cost(cls: CarbonClass, signal: Signal, config: VerdictConfig | None = N
         x = abs(signal.ppm - cls.predicted_ppm) / max(sd, 1e-6)
         k = cfg.prediction_huber
         cost += min(cfg.prediction_cap, 0.5 * x * x if x <= k else k * x - 0.5 * k * k)
+        if x <= 2.0:
+            # A prediction for this very structure outweighs the coarse handbook range.
+            range_cost *= cfg.vouched_range_factor
+    cost += range_cost
     nucleus = _PATTERN_NUCLEUS.get(signal.pattern or "")
     if nucleus is not None:
         if not _coupled(cls, nucleus)[0]:
@@ -339,10 +346,25 @@ def assign(
             if (a, j) in pair_index and (b, j) in pair_index:
                 zs.append((pair_index[(a, j)], pair_index[(b, j)], j))
     nz = len(zs)
+    # w: a class of several symmetry-equivalent carbons taking a second, nearby signal
+    # (hindered rotation, diastereotopic groups): (class, signal, cost, primary x indices).
+    ws: list[tuple[int, int, float, list[int]]] = []
+    for k, j, c in pairs:
+        if classes[k].carbons < 2:
+            continue
+        near = [
+            q
+            for q, (k2, j2, _) in enumerate(pairs)
+            if k2 == k and j2 != j and abs(sigs[j2].ppm - sigs[j].ppm) <= cfg.split_window_ppm
+        ]
+        if near:
+            ws.append((k, j, c + cfg.split_cost, near))
+    nw = len(ws)
     # o: extra classes on a signal; e: relative carbons held beyond its intensity.
     y0, o0, p0, z0 = nx, nx + ns, nx + 2 * ns, nx + 3 * ns
+    w0 = z0 + nz
     rel = relative_carbons(expectation)
-    nvar = z0 + nz
+    nvar = w0 + nw
 
     obj = np.zeros(nvar)
     for p, (k, _j, c) in enumerate(pairs):
@@ -353,6 +375,8 @@ def assign(
         obj[p0 + col_of[j]] = (cfg.overlap_cost - cfg.supported_overlap_cost) / _EXCESS_UNIT
     for q, _ in enumerate(zs):
         obj[z0 + q] = cfg.partner_cost
+    for q, (_, _, c, _) in enumerate(ws):
+        obj[w0 + q] = c
 
     rows: list[int] = []
     cols: list[int] = []
@@ -377,13 +401,24 @@ def assign(
     z_of_signal: dict[int, list[int]] = {}
     for q, (_, _, j) in enumerate(zs):
         z_of_signal.setdefault(j, []).append(z0 + q)
+    w_of_signal: dict[int, list[int]] = {}
+    w_of_class: dict[int, list[int]] = {}
+    for q, (k, j, _, _) in enumerate(ws):
+        w_of_signal.setdefault(j, []).append(w0 + q)
+        w_of_class.setdefault(k, []).append(w0 + q)
     for k in sorted(by_class):
         add([(p, 1.0) for p in by_class[k]], -np.inf, 1.0)
     for j in sample:
         xs = by_signal.get(j, [])
-        add([(y0 + col_of[j], 1.0)] + [(p, -1.0) for p in xs], -np.inf, 0.0)
+        wj = w_of_signal.get(j, [])
+        add(
+            [(y0 + col_of[j], 1.0)] + [(p, -1.0) for p in xs] + [(v, -1.0) for v in wj],
+            -np.inf,
+            0.0,
+        )
         add(
             [(p, 1.0) for p in xs]
+            + [(v, 1.0) for v in wj]
             + [(o0 + col_of[j], -1.0)]
             + [(zq, -1.0) for zq in z_of_signal.get(j, [])],
             -np.inf,
@@ -407,6 +442,11 @@ def assign(
     for q, (pa, pb, _) in enumerate(zs):
         add([(z0 + q, 1.0), (pa, -1.0)], -np.inf, 0.0)
         add([(z0 + q, 1.0), (pb, -1.0)], -np.inf, 0.0)
+    for _k, vs in sorted(w_of_class.items()):
+        add([(v, 1.0) for v in vs], -np.inf, 1.0)  # one second signal per class
+    for q, (_, _, _, near) in enumerate(ws):
+        # ... and only beside the class's own first signal.
+        add([(w0 + q, 1.0)] + [(p, -1.0) for p in near], -np.inf, 0.0)
 
     a = coo_array((vals, (rows, cols)), shape=(len(lb), nvar)).tocsr()
     integrality = np.ones(nvar)
@@ -429,30 +469,42 @@ def assign(
     for p, (k, j, c) in enumerate(pairs):
         if res.x[p] > 0.5:
             chosen.setdefault(j, []).append((k, c))
+    seconds: dict[int, list[tuple[int, float]]] = {}
+    for q, (k, j, c, _) in enumerate(ws):
+        if res.x[w0 + q] > 0.5:
+            seconds.setdefault(j, []).append((k, c))
 
     out = []
-    for j in sorted(chosen):
-        held = sorted(chosen[j])
+    for j in sorted(set(chosen) | set(seconds)):
+        held = sorted(chosen.get(j, []) + seconds.get(j, []))
         ks = tuple(k for k, _ in held)
         cost = sum(c for _, c in held)
         kind = overlap_kind(expectation, sigs[j], ks, cfg)
-        note = ""
+        notes = []
         if kind is not None:
             labels = " and ".join(classes[k].label for k in ks)
-            n_pairs = sum(1 for q in zs if q[2] == j and res.x[z0 + zs.index(q)] > 0.5)
+            n_pairs = sum(1 for q in range(nz) if zs[q][2] == j and res.x[z0 + q] > 0.5)
             extra = len(ks) - 1 - n_pairs
-            rel_total = sum(rel[k] for k in ks) - sum(
+            rel_total = sum(rel[k] for k, _ in chosen.get(j, [])) - sum(
                 min(rel[pairs[zs[q][0]][0]], rel[pairs[zs[q][1]][0]])
                 for q in range(nz)
                 if zs[q][2] == j and res.x[z0 + q] > 0.5
             )
             cost += _overlap_penalty(sigs[j], extra, rel_total, cfg) + n_pairs * cfg.partner_cost
-            note = {
-                "partner": f"coincident pair: {labels} (diastereotopic or rotamer partners)",
-                "supported": f"overlap: {labels} share this signal (intensity and shifts agree)",
-                "possible": f"possible overlap: {labels} share this signal",
-                "unsupported": f"overlap without evidence: {labels} share this signal, but it is "
-                "no taller than one carbon",
-            }[kind]
-        out.append(Assignment(signal=j, classes=ks, cost=round(cost, 6), note=note))
+            notes.append(
+                {
+                    "partner": f"coincident pair: {labels} (diastereotopic or rotamer partners)",
+                    "supported": f"overlap: {labels} share this signal (intensity and shifts "
+                    "agree)",
+                    "possible": f"possible overlap: {labels} share this signal",
+                    "unsupported": f"overlap without evidence: {labels} share this signal, but "
+                    "it is no taller than one carbon",
+                }[kind]
+            )
+        for k, _ in seconds.get(j, []):
+            notes.append(
+                f"split: second signal of {classes[k].label}, whose symmetry-equivalent "
+                "carbons appear apart (hindered rotation or diastereotopic groups?)"
+            )
+        out.append(Assignment(signal=j, classes=ks, cost=round(cost, 6), note="; ".join(notes)))
     return tuple(out)

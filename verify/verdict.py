@@ -37,6 +37,8 @@ overlap                  info/rev classes share a signal: info when it is tall (
 overlap-unsupported      review   such sharing without intensity evidence, within the size
                                   allowance (beyond it: count-mismatch fail)
 coincident-pair          info     a diastereotopic/rotamer pair appears as one signal
+split-class              review   a class of symmetry-equivalent carbons takes two close
+                                  signals (hindered rotation, diastereotopic groups)
 low-confidence           review   assigned multiplicity calls below the confidence threshold
 no-dept90                review   CH and CH3 told apart from shift alone (no DEPT-90)
 carbon-only              review   no edited spectrum: multiplicities unknown
@@ -77,6 +79,7 @@ from verify.model import (
     MULTIPLICITIES,
     SEVERITIES,
     Assignment,
+    CarbonClass,
     Expectation,
     Finding,
     Impurity,
@@ -243,6 +246,23 @@ def judge(
         fx.add("data-note", "info", note)
 
     # ------------------------------------------------------------- assigned signals
+    signals_of: dict[int, list[int]] = {}
+    for a in assignment:
+        for k in a.classes:
+            signals_of.setdefault(k, []).append(a.signal)
+    for k, js in sorted(signals_of.items()):
+        if len(js) > 1:
+            cls = classes[k]
+            fx.add(
+                "split-class",
+                "review",
+                f"{cls.label} ({cls.carbons} carbons equivalent by symmetry) appears as "
+                f"{len(js)} signals at {_join([_ppm(sigs[j].ppm) for j in js])}: hindered "
+                "rotation or diastereotopic groups would explain it; so would a less "
+                "symmetric structure.",
+                cls.atoms,
+                [sigs[j].ppm for j in js],
+            )
     low_conf: list[int] = []
     n_unsupported = 0
     unsupported_items: dict[str, list[tuple[str, int]]] = {m: [] for m in MULTIPLICITIES}
@@ -401,7 +421,14 @@ def judge(
         parts: list[str] = []
         for k in miss:
             cls = classes[k]
-            if HYDROGENS[cls.multiplicity] == 0 and len(missing_q) <= cfg.max_missing_quaternary:
+            hidden = _hidden_under_solvent(cls, obs, cfg)
+            if hidden is not None:
+                sevs.append("review")
+                parts.append(
+                    f"the {cls.multiplicity} of {cls.label} has no signal of its own; it may lie "
+                    f"under the solvent signal at {_ppm(hidden)}"
+                )
+            elif HYDROGENS[cls.multiplicity] == 0 and len(missing_q) <= cfg.max_missing_quaternary:
                 sevs.append("review")
                 parts.append(
                     f"the quaternary {cls.label} has no signal (quaternary carbons are often weak)"
@@ -410,6 +437,14 @@ def judge(
                 sevs.append("review" if weak_data else "fail")
                 parts.append(f"the {cls.multiplicity} of {cls.label} has no signal")
         for k in unsup:
+            hidden = _hidden_under_solvent(classes[k], obs, cfg)
+            if hidden is not None:
+                sevs.append("review")
+                parts.append(
+                    f"{classes[k].label} has no signal of its own; it may lie under the solvent "
+                    f"signal at {_ppm(hidden)}"
+                )
+                continue
             sevs.append(overlap_sev)
             parts.append(
                 f"{classes[k].label} would have to coincide with another carbon on a signal no "
@@ -564,6 +599,23 @@ def _explain(
         if trial[2] < best[2] - 1e-9:
             best, excluded = trial, excluded | set(imp.signals)
     return best
+
+
+def _hidden_under_solvent(cls: CarbonClass, obs: Observation, cfg: VerdictConfig) -> float | None:
+    """Shift of a solvent signal that could hide the class (in range, near its prediction).
+
+    Near means within one prediction sigma and ``solvent_hiding_ppm``: a loose match
+    would let a homologue's extra carbon "hide" under any solvent line.
+    """
+    for s in obs.signals:
+        if s.role != "solvent" or range_distance(cls, s.ppm) > 0:
+            continue
+        if cls.predicted_ppm is not None:
+            sd = cls.prediction_sd or cfg.prediction_sd_ppm
+            if abs(s.ppm - cls.predicted_ppm) > min(sd, cfg.solvent_hiding_ppm):
+                continue
+        return s.ppm
+    return None
 
 
 def rank(
