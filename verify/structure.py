@@ -28,6 +28,23 @@ How carbons are grouped
    resonance form (C=N+ double bond) for the test, so the two N-substituents come
    out syn/anti (slow rotation at room temperature).
 
+5. When stereo elements are left unspecified (and there are two or more in all), the
+   classes are worked out for each relative configuration (all of them up to three
+   unspecified elements, else three seeded random ones) and the finest common
+   partition is kept: a pair that is diastereotopic in any configuration is split.
+
+Flags
+-----
+``diastereotopic``: constitutionally equivalent but split by the substitution test
+(``partner`` set).  ``amide-rotation``: an N-carbon of a tertiary amide, carbamate,
+thioamide or N-nitrosamine (not lactam ring bonds, not ureas); with a partner it is the
+syn/anti half of a pair, without one it warns that rotamers may double the signal.
+``resonance-averaged``: a carbon of a charged delocalised group, or a class merged only
+over resonance forms.  ``exchange-averaged``: a carbon of a tautomeric azole/amidine
+system, or a class merged only by proton exchange.  ``deuterated``: D on the carbon.
+``coupled-F``/``coupled-P``: F or P within three bonds (a four-bond aromatic C-F
+coupling is listed among the couplings without the flag).
+
 Limitation: ring para-stereocentres of the all-cis-1,3,5-trisubstituted-cyclohexane
 kind are split too finely by both perceptions (flagged ``diastereotopic`` with a
 partner, so a coincident pair is still accepted).
