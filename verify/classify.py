@@ -104,7 +104,7 @@ PRESENT_SNR = 3.0
 _NAMES = {"dept45": "DEPT-45", "dept90": "DEPT-90", "dept135": "DEPT-135", "apt": "APT"}
 _EDITED = ("dept45", "dept90", "dept135", "apt")
 _N_H = np.array([0, 1, 2, 3])
-_J_OFFSETS = np.array([-20.0, -10.0, 0.0, 10.0, 25.0, 45.0])
+_J_OFFSETS = np.array([-20.0, -10.0, 0.0, 10.0, 25.0, 45.0, 70.0])
 _THETA_ERR = np.array([-8.0, -4.0, 0.0, 4.0, 8.0])
 
 
@@ -144,7 +144,10 @@ def _j_grid(ppm: float) -> npt.NDArray[np.float64]:
     out = np.empty((4, _J_OFFSETS.size))
     for m, mult in enumerate(MULTIPLICITIES):
         typ = typical_j_hz(ppm, mult)
-        out[m] = np.clip(typ + _J_OFFSETS, 110.0, 260.0)
+        offsets = _J_OFFSETS if mult == "CH" else np.minimum(_J_OFFSETS, 45.0)
+        # only a CH reaches ~200 Hz and beyond (formyl, azine C2-H, alkyne); a CH2 or
+        # CH3 stays within ~45 Hz of its typical value (Pretsch 2009, from memory)
+        out[m] = np.clip(typ + offsets, 110.0, 260.0)
     alk = _tables()["alkyne_ch"]
     if alk["lo"] <= ppm < alk["hi"]:
         out[1, -1] = float(alk["j_hz"])
@@ -715,6 +718,8 @@ def _word(e: str, rel: float | None, present: bool, unit: str) -> str:
         return f"not measured in {name}"
     if not present:
         return f"absent from {name} ({rel:+.2f})"
+    if abs(rel) < 0.15:
+        return f"only a trace in {name} ({rel:+.2f} {unit})"
     if e == "apt":
         return f"{'quaternary (solvent) phase' if rel > 0 else 'CH/CH3 phase'} in APT ({rel:+.2f})"
     return f"{'up' if rel > 0 else 'down'} in {name} ({rel:+.2f} {unit})"
@@ -773,7 +778,9 @@ def classify(
         if ps.experiment != role:
             raise UsageError(f"the peak set given as {role!r} says it is {ps.experiment!r}")
     referencing = referencing or Referencing()
-    solvent_name = canonical_solvent(solvent) or solvent or referencing.solvent or ""
+    # the solvent actually found by referencing names the solvent signals, else the given one
+    found = referencing.solvent if referencing.method == "solvent" else None
+    solvent_name = canonical_solvent(found) or found or canonical_solvent(solvent) or solvent or ""
     experiments = tuple(e for e in EXPERIMENTS if e in peaksets)
     edited = tuple(e for e in _EDITED if e in peaksets)
     mode = _mode(experiments)
