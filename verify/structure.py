@@ -309,6 +309,7 @@ _PATTERNS: dict[str, Chem.Mol] = {
         # azole N-H next to (through the ring) a pyridine-type ring N: fast 1,2/1,3 shift
         "azole_nh": "[nH;r5]",
         "carboxylate": "[CX3](=O)[OX1-]",
+        "terminal_anion": "[$([CX3]=O),$([PX4]=O),$([SX4]=O)]-[O-,S-;X1]",
         "ammonium": "[NX4+;!H0]",
         "aromatic_nh_plus": "[nH+]",
         "amidine_nh": "[NX3;!H0;!a;!$(N-[#6]=[O,S])]-[CX3;!a]=[NX2;!a]",
@@ -390,9 +391,28 @@ def _exchange_normalise(mol: Chem.Mol) -> tuple[Chem.Mol, set[int]]:
 
 def _resonance_forms(mol: Chem.Mol) -> list[Chem.Mol]:
     """Resonance forms of a charged molecule (the molecule itself when neutral)."""
+    # an anionic O/S on C(=O), P(=O) or S(=O) only swaps with its terminal twin: that
+    # local swap never changes carbon classes, so it is not enumerated (a polyanion
+    # would otherwise give 2**n forms)
+    terminal = [m[1] for m in mol.GetSubstructMatches(_PATTERNS["terminal_anion"])]
+    if terminal:
+        rw = Chem.RWMol(mol)
+        for i in terminal:
+            a = rw.GetAtomWithIdx(i)
+            a.SetFormalCharge(0)
+            a.SetNumExplicitHs(a.GetNumExplicitHs() + 1)
+        mol = rw.GetMol()
+        mol.UpdatePropertyCache(strict=False)
     if not any(a.GetFormalCharge() for a in mol.GetAtoms()):
         return [Chem.Mol(mol)]
     supplier = Chem.ResonanceMolSupplier(mol, 0, _MAX_FORMS)
+    if len(supplier) >= _MAX_FORMS:
+        warnings.warn(
+            f"more than {_MAX_FORMS} resonance forms: carbons of charged groups may be "
+            "split where they are in fact equivalent",
+            CtallyWarning,
+            stacklevel=2,
+        )
     forms = []
     for i in range(len(supplier)):
         form = supplier[i]
@@ -1016,6 +1036,7 @@ def _configuration_variants(frag: Chem.Mol) -> list[frozenset[int]]:
 def _fragment_classes(frag: Chem.Mol) -> list[tuple[list[int], set[str], int | None]]:
     """Carbon classes of one fragment: (atoms, flags, partner index within fragment)."""
     amides = _amide_sites(frag, set())
+    carboxylates = {m[0] for m in frag.GetSubstructMatches(_PATTERNS["carboxylate"])}
     res_forms = _resonance_forms(frag)
     res_bonds, res_atoms = _varying(res_forms)
     exch_mol, tautomeric = _exchange_normalise(frag)
@@ -1055,6 +1076,8 @@ def _fragment_classes(frag: Chem.Mol) -> list[tuple[list[int], set[str], int | N
         if len({res_of[a] for a in members}) > 1:
             flags.add("exchange-averaged")
         if any(a in res_atoms for a in members) and len(res_forms) > 1:
+            flags.add("resonance-averaged")
+        if any(a in carboxylates for a in members):
             flags.add("resonance-averaged")
         if any(a in tautomeric for a in members):
             flags.add("exchange-averaged")
