@@ -280,6 +280,13 @@ def test_acetate_and_carboxylic_acid() -> None:
         assert n_classes(smi) == 2
 
 
+def test_edta_tetraanion_three_classes() -> None:
+    # From memory: EDTA (as its salts, in D2O) shows 3 carbon signals (COO-, NCH2CO, NCH2CH2N).
+    exp = expected_inventory("[O-]C(=O)CN(CC(=O)[O-])CCN(CC(=O)[O-])CC([O-])=O")
+    assert sorted(c.carbons for c in exp.classes) == [2, 4, 4]
+    assert "resonance-averaged" in class_of(exp, 1).flags
+
+
 def test_hydrogen_succinate_exchange_averaged() -> None:
     # Common practice: the acid proton of hydrogen succinate exchanges fast: 2 signals.
     exp = expected_inventory("OC(=O)CCC(=O)[O-]")
