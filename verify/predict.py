@@ -619,10 +619,11 @@ def _alkene(mol: Chem.Mol, atom: Chem.Atom, partner: Chem.Atom, rings: _Rings) -
             if _is_alkyl(mol, z):
                 n_alpha += 1
                 ppm += a["alpha" + suffix]
-                for w in _heavy(z, *visited):
+                for k, w in enumerate(_heavy(z, *visited)):
                     visited.add(w.GetIdx())
                     hetero = a["beta_hetero" + suffix]
-                    ppm += hetero.get(w.GetSymbol(), a["beta" + suffix])
+                    beta = a["beta" + suffix] if (k == 0 or not own) else a["beta_extra"]
+                    ppm += hetero.get(w.GetSymbol(), beta)
                     for v in _heavy(w, *visited):
                         visited.add(v.GetIdx())
                         ppm += a["gamma" + suffix]
