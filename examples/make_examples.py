@@ -35,6 +35,7 @@ from rdkit import Chem
 from rdkit.Chem import rdDepictor
 
 from verify.simulate import SyntheticCarbon, write_sample
+from verify.structure import expected_inventory
 
 HERE = Path(__file__).resolve().parent
 MHZ = 100.6
@@ -124,18 +125,15 @@ def numbered_mol(mapped: str, stereo: str | None = None) -> Chem.Mol:
 
 
 def carbons_of(mol: Chem.Mol, shifts: Mapping[int, float], scale: int = 1) -> list[SyntheticCarbon]:
-    """One SyntheticCarbon per symmetry class (RDKit ranks), `scale` units per carbon."""
-    ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
-    groups: dict[int, list[int]] = {}
-    for atom in mol.GetAtoms():
-        if atom.GetAtomicNum() == 6:
-            groups.setdefault(ranks[atom.GetIdx()], []).append(atom.GetIdx())
+    """One SyntheticCarbon per carbon class of ctally's structure stage, `scale` units each.
+
+    Carbons of one class given different shifts are diastereotopic (the isopropyl
+    methyls C26/C27 of cholesterol) and get one signal each.
+    """
     out = []
-    for group in sorted(groups.values()):
-        # topologically equivalent carbons with different shifts are diastereotopic
-        # (the isopropyl methyls C26/C27 of cholesterol): one signal each
+    for cls in sorted(expected_inventory(mol).classes, key=lambda c: c.atoms):
         by_shift: dict[float, list[int]] = {}
-        for i in group:
+        for i in cls.atoms:
             by_shift.setdefault(shifts[i + 1], []).append(i)
         for ppm, members in by_shift.items():
             out.append(_carbon(mol, ppm, members, scale))
