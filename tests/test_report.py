@@ -228,7 +228,12 @@ def test_hostile_text_shows_as_text_never_markup() -> None:
         spectra={},
         metadata={"lot": HOSTILE, "<th>key</th>": 'R&D "lab" <u>x</u>'},
     )
-    doc = parse(render_html(v, sample=sample))
+    audit = {
+        "time": HOSTILE,
+        "inputs": [{"role": "<i>r</i>", "path": "/tmp/<script>x</script>.dx", "sha256": "<b>"}],
+        "parameters": {"<u>k</u>": HOSTILE},
+    }
+    doc = parse(render_html(v, sample=sample, audit=audit))
     assert not doc.find_all("script")
     assert not doc.find_all("img") and not doc.find_all("b") and not doc.find_all("u")
     assert not doc.find_all("i")
@@ -243,6 +248,8 @@ def test_hostile_text_shows_as_text_never_markup() -> None:
     assert bad_signal_name in doc.by_id("impurities").text
     assert bad_signal_name in doc.by_id("spectra").text  # SVG label text
     assert "CDCl3 <svg onload=alert(1)>" in doc.by_id("spectra").text
+    block = doc.by_id("audit").text
+    assert "/tmp/<script>x</script>.dx" in block and "<u>k</u>" in block and HOSTILE in block
     titles = doc.find_all("title")
     assert HOSTILE in titles[0].text
 
