@@ -247,3 +247,30 @@ def test_dept135_signs(spectra_dir, rel, negative):
         assert p.snr >= 10.0  # a clear sign
         is_ch2 = any(abs(p.ppm - c) < 0.5 for c in negative)
         assert p.sign == (-1 if is_ch2 else 1), p
+
+
+def test_truncation_ripples_are_not_carbons():
+    # A FID cut at AQ = 0.55 s while T2 = 1.5 s, transformed without apodization:
+    # each line carries sinc side lobes ~1/AQ Hz apart (Fourier theory; Keeler,
+    # Understanding NMR Spectroscopy, ch. 5).  Only the four lines are carbons.
+    from _synth_lines import fid
+
+    from verify.process import process_fid
+
+    lines = [(150.0, 1.0), (120.0, 0.3), (60.0, 0.8), (30.0, 0.5)]
+    f = fid(lines, n=16384, t2_s=1.5, noise=0.002, sw_hz=30000.0)
+    s = process_fid(f, line_broadening_hz=0.0)
+    found = _sample(pick_peaks(s, "carbon"))
+    assert [round(p.ppm, 2) for p in found] == [150.0, 120.0, 60.0, 30.0]
+
+
+def test_13c_satellites_and_sidebands_are_artifacts():
+    # 13C–13C satellites: 0.55 % each at ±1J(C,C)/2 (1J ~56 Hz aromatic, from memory);
+    # spinning sidebands: a symmetric weak pair at ±20 Hz·k (common practice).
+    j = 56.0 / MHZ
+    big = [(129.6, 5000.0)]
+    sat = [(129.6 - j / 2, 27.0), (129.6 + j / 2, 27.0)]
+    side = [(60.3 - 640 / MHZ, 30.0), (60.3 + 640 / MHZ, 30.0), (60.3, 4000.0)]
+    s = spectrum(big + sat + side, noise=1.0)
+    found = _sample(pick_peaks(s, "carbon"))
+    assert [round(p.ppm, 1) for p in found] == [129.6, 60.3]

@@ -219,3 +219,21 @@ def test_acetone_septet_of_1_naphthoic_acid(spectra_dir):
     _, ref = reference_sample({"carbon": s}, "Acetone")
     assert ref.method == "solvent" and ref.solvent == "acetone-d6"
     assert ref.found_ppm + ref.offset_ppm == pytest.approx(29.84, abs=1e-6)
+
+
+def test_edited_spectra_alone_cannot_be_referenced_on_the_solvent():
+    # DEPT shows no CDn carbon (no attached protium): nothing to reference on
+    dept = _dept_of([(135.2, 150.0), (128.4, 160.0), (60.3, -140.0)], 0.3)
+    out, ref = reference_sample({"dept135": dept}, "CDCl3")
+    assert ref.method == "file" and ref.offset_ppm == 0.0
+    assert "No carbon or APT" in ref.note
+    assert np.array_equal(out["dept135"].ppm, dept.ppm)
+
+
+def test_apt_file_axis_aligned_on_the_carbon():
+    carbon = spectrum(SAMPLE + cdcl3(), shift=0.2)
+    apt_lines = [(c, -h if i % 2 else h) for i, (c, h) in enumerate(SAMPLE + cdcl3())]
+    apt = spectrum(apt_lines, shift=0.2 - 0.12, seed=9, experiment="apt")
+    out, ref = reference_sample({"carbon": carbon, "apt": apt}, "CDCl3")
+    assert ref.offset_ppm == pytest.approx(-0.2, abs=0.02)
+    assert out["apt"].provenance["referencing"]["alignment_ppm"] == pytest.approx(0.12, abs=0.01)

@@ -66,6 +66,8 @@ _SATELLITE_HZ = (12.0, 95.0)
 #: Weak lines placed symmetrically (±1 Hz or 1 %) about a line at least 50× stronger,
 #: up to this far (Hz), are sidebands (spinning, decoupler modulation): common practice.
 _SIDEBAND_MAX_HZ = 2000.0
+#: How far (Hz) from a strong line weak truncation ripples are looked for.
+_RIPPLE_REACH_HZ = 1000.0
 #: A line below this fraction of the typical sample line (carbon spectrum only) is
 #: taken for an impurity: in routine 13C{1H} spectra a quaternary carbon is seldom
 #: weaker than ~15 % of the median protonated carbon (experience; no table).
@@ -237,23 +239,23 @@ def _artifact_roles(lines: list[Line], hz_per_point: float) -> list[str]:
             ):
                 roles[i] = "artifact"  # a 13C-13C satellite or spinning sideband
                 break
+    _mark_ripples(lines, roles, hz_per_point)
     # symmetric pairs of weak lines around a strong one: modulation/spinning sidebands
-    for big in lines:
-        weak = [
-            k
-            for k, ln in enumerate(lines)
-            if abs(ln.height) < _SATELLITE_FRACTION * abs(big.height)
-            and 0 < abs(ln.pos - big.pos) * hz_per_point <= _SIDEBAND_MAX_HZ
-        ]
-        for a in weak:
-            for b in weak:
-                da, db = lines[a].pos - big.pos, big.pos - lines[b].pos
-                if (
-                    da > 0
-                    and db > 0
-                    and abs(da - db) * hz_per_point < max(1.0, 0.01 * da * hz_per_point)
-                ):
-                    roles[a] = roles[b] = "artifact"
+    pos = np.array([ln.pos for ln in lines]) * hz_per_point
+    amp = np.array([abs(ln.height) for ln in lines])
+    for big_h, big_pos in zip(amp, pos, strict=True):
+        weak = np.flatnonzero(
+            (amp < _SATELLITE_FRACTION * big_h) & (np.abs(pos - big_pos) <= _SIDEBAND_MAX_HZ)
+        )
+        right = weak[pos[weak] > big_pos]
+        left = weak[pos[weak] < big_pos]
+        if right.size == 0 or left.size == 0:
+            continue
+        da = pos[right] - big_pos
+        db = big_pos - pos[left]
+        ok = np.abs(da[:, None] - db[None, :]) < np.maximum(1.0, 0.01 * da)[:, None]
+        for r, q in zip(*np.nonzero(ok), strict=True):
+            roles[int(right[r])] = roles[int(left[q])] = "artifact"
     for i, ln in enumerate(lines):
         for j in (i - 2, i - 1, i + 1, i + 2):
             if not 0 <= j < len(lines):
@@ -307,6 +309,46 @@ def _mark_isotopologues(
             continue
         if lo <= at(ln.pos) <= hi and abs(ln.height) < 0.25 * top:
             roles[i] = "solvent"
+
+
+def _mark_ripples(lines: list[Line], roles: list[str], hz_per_point: float) -> None:
+    """Label as artefacts evenly spaced runs of weak lines near a strong line.
+
+    A FID cut off before it has decayed gives each line sinc side lobes about
+    1/AQ Hz apart (AQ the acquisition time), decaying slowly away from the line.
+    Three weak lines of one sign in arithmetic progression (spacing 0.5–25 Hz,
+    within 10 % of it or half a point) are taken for such lobes; "weak" is below
+    25 % of the strongest line within 30 spacings, or below 5 % of one within
+    ``_RIPPLE_REACH_HZ``.
+    """
+    n = len(lines)
+    if n < 4:
+        return
+    pos_hz = np.array([ln.pos for ln in lines]) * hz_per_point
+    h = np.array([abs(ln.height) for ln in lines])
+    sign = np.sign([ln.height for ln in lines])
+    far = np.zeros(n, dtype=bool)
+    for i in range(n):
+        near = np.abs(pos_hz - pos_hz[i]) < _RIPPLE_REACH_HZ
+        far[i] = h[i] < 0.05 * h[near].max()
+    for a in range(n):  # lines are sorted by position
+        stop = int(np.searchsorted(pos_hz, pos_hz[a] + 25.0, side="right"))
+        for b in range(a + 1, stop):
+            d = pos_hz[b] - pos_hz[a]
+            if d < 0.5 or sign[a] != sign[b]:
+                continue
+            target = pos_hz[b] + d
+            tol = max(0.5 * hz_per_point, 0.1 * d)
+            lo = int(np.searchsorted(pos_hz, target - tol))
+            hi = int(np.searchsorted(pos_hz, target + tol))
+            c = [k for k in range(lo, hi) if sign[k] == sign[a]]
+            if not c:
+                continue
+            trio = [a, b, c[0]]
+            around = np.abs(pos_hz - pos_hz[b]) < 30.0 * d
+            if all(far[k] for k in trio) or all(h[k] < 0.25 * h[around].max() for k in trio):
+                for k in trio:
+                    roles[k] = "artifact"
 
 
 def _mark_protonated_solvent(

@@ -299,12 +299,24 @@ def reference_sample(
         ref_role = next(iter(spectra))
     ref_spec = spectra.get(ref_role) if ref_role else None
 
-    referencing = _find_reference(ref_spec, solvent, key, tolerance_ppm)
+    if ref_spec is not None and ref_role not in _SOLVENT_VISIBLE:
+        # edited spectra show no deuterated carbon: only TMS (a CH3) could be seen
+        referencing = _find_reference(ref_spec, None, None, tolerance_ppm)
+        referencing = replace(
+            referencing,
+            solvent=key,
+            note=(
+                f"No carbon or APT spectrum, so no solvent line to reference on ({ref_role}"
+                " shows no deuterated carbon); " + referencing.note.split("; ", 1)[-1]
+            ),
+        )
+    else:
+        referencing = _find_reference(ref_spec, solvent, key, tolerance_ppm)
     offset = referencing.offset_ppm
     out: dict[str, Spectrum] = {}
     for role, spec in spectra.items():
         extra = 0.0
-        if ref_spec is not None and role != ref_role and role not in _SOLVENT_VISIBLE:
+        if ref_spec is not None and role != ref_role:
             moved = _axis_disagreement(spec, ref_spec, tolerance_ppm)
             if moved is not None and abs(moved) > max(0.01, 0.5 * spec.ppm_per_point):
                 extra = moved
