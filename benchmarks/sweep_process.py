@@ -25,7 +25,6 @@ from _synth_lines import MHZ, fid  # noqa: E402
 from verify.peaks import pick_peaks  # noqa: E402
 from verify.process import process_fid  # noqa: E402
 
-
 GD_ERR = 1 / 6
 MIN_LINES = 4
 
