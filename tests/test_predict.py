@@ -194,6 +194,18 @@ def test_no_molblock_falls_back_to_the_shift_range() -> None:
     assert out.classes[0].prediction_sd == pytest.approx(7.5)  # a quarter of the width
 
 
+def test_molblock_with_odd_valence_still_gets_predictions() -> None:
+    # a pentavalent carbon fails RDKit's full sanitization; the predictor must still fill
+    # every class (here from the shift range when the atom is beyond the schemes)
+    mol = Chem.MolFromSmiles("CC(C)(C)(C)C", sanitize=False)
+    block = Chem.MolToMolBlock(mol, kekulize=False)
+    assert Chem.MolFromMolBlock(block) is None  # RDKit refuses it as it stands
+    cls = CarbonClass(atoms=(1,), multiplicity="C", environment="sp3-C", shift_range=(20.0, 60.0))
+    out = predict_shifts(Expectation(structure="?", formula="?", classes=(cls,), molblock=block))
+    assert math.isfinite(out.classes[0].predicted_ppm or math.nan)
+    assert (out.classes[0].prediction_sd or 0) > 0
+
+
 def test_unreadable_molblock_is_an_error() -> None:
     cls = CarbonClass(
         atoms=(0,), multiplicity="CH3", environment="sp3-CH3", shift_range=(5.0, 35.0)

@@ -1130,7 +1130,7 @@ def predict_shifts(expectation: Expectation, mol: Chem.Mol | None = None) -> Exp
 
     """
     if mol is None and expectation.molblock.strip():
-        mol = Chem.MolFromMolBlock(expectation.molblock, removeHs=False)
+        mol = _read_molblock(expectation.molblock)
         if mol is None:
             raise StructureError(
                 f"the molblock of {expectation.name or expectation.structure!r} cannot be "
@@ -1147,6 +1147,27 @@ def predict_shifts(expectation: Expectation, mol: Chem.Mol | None = None) -> Exp
         atoms = _predict(mol)
     classes = tuple(_fill(cls, atoms) for cls in expectation.classes)
     return replace(expectation, classes=classes)
+
+
+def _read_molblock(block: str) -> Chem.Mol | None:
+    """Read a molfile keeping atom order and hydrogens; fall back to partial sanitizing.
+
+    A structure that RDKit's full sanitization refuses (unusual valence) is still read with
+    ring perception and aromaticity where possible, so that its carbons get predictions.
+    """
+    mol = Chem.MolFromMolBlock(block, removeHs=False)
+    if mol is not None:
+        return mol
+    mol = Chem.MolFromMolBlock(block, sanitize=False, removeHs=False)
+    if mol is None:
+        return None
+    mol.UpdatePropertyCache(strict=False)
+    Chem.SanitizeMol(
+        mol,
+        Chem.SanitizeFlags.SANITIZE_ALL ^ Chem.SanitizeFlags.SANITIZE_PROPERTIES,
+        catchErrors=True,
+    )
+    return mol
 
 
 def _fill(cls: CarbonClass, atoms: Mapping[int, _Prediction]) -> CarbonClass:
