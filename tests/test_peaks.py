@@ -274,3 +274,19 @@ def test_13c_satellites_and_sidebands_are_artifacts():
     s = spectrum(big + sat + side, noise=1.0)
     found = _sample(pick_peaks(s, "carbon"))
     assert [round(p.ppm, 1) for p in found] == [129.6, 60.3]
+
+
+def test_cd3_septet_of_a_deuterated_sample_carbon():
+    # a CD3 group: 1:3:6:7:6:3:1 septet, 1J(C,D) ~20 Hz (= 1J(C,H)/6.51, from memory)
+    j = 20.0 / MHZ
+    septet = [
+        (52.0 + k * j, 15.0 * w) for k, w in zip(range(-3, 4), (1, 3, 6, 7, 6, 3, 1), strict=True)
+    ]
+    s = spectrum(LINES + septet, noise=1.0)
+    plain = _sample(pick_peaks(s, "carbon"))
+    assert len(plain) == len(LINES) + 7
+    found = _sample(pick_peaks(s, "carbon", hetero=frozenset({"2H"})))
+    assert len(found) == len(LINES) + 1
+    cd = next(p for p in found if p.pattern == "C-D")
+    assert cd.ppm == pytest.approx(52.0, abs=0.005) and len(cd.lines) == 7
+    assert cd.j_hz == pytest.approx(20.0, abs=0.3)

@@ -54,6 +54,8 @@ COUPLING_RANGES_HZ: dict[str, tuple[tuple[float, float], ...]] = {
     "31P": ((50.0, 150.0), (3.0, 20.0)),  # 3J 3–15 lies inside the 2J range
 }
 _PATTERN_NAME = {"19F": "C-F", "31P": "C-P"}
+#: One-bond C–D couplings (Hz) of deuterated sample carbons (see _deuterium_groups).
+_CD_J_HZ = (18.0, 40.0)
 #: Half-window (Hz) in which a line's prominence is measured: wide enough for any
 #: carbon line (natural + 1–3 Hz apodization), narrow enough to be local.
 _PROMINENCE_WINDOW_HZ = 30.0
@@ -126,8 +128,8 @@ def pick_peaks(
         Solvent whose multiplet is labelled ``"solvent"`` (falls back on
         ``referencing.solvent`` and then ``spectrum.solvent``).
     hetero : frozenset of str
-        Coupled heteronuclei in the structure (``"19F"``, ``"31P"``); only then are
-        C–F/C–P multiplets grouped.
+        Coupled heteronuclei in the structure (``"19F"``, ``"31P"``, ``"2H"``); only
+        then are C–F/C–P/C–D multiplets grouped.
     referencing : Referencing, optional
         The sample's referencing (for the solvent name).
 
@@ -194,6 +196,11 @@ def pick_peaks(
             used.update(group)
             peak = _merge([lines[i] for i in group], y, at, hz_per_point, sigma, "sample",
                           _PATTERN_NAME[nucleus])  # fmt: skip
+            peaks.append(_with_j(peak, j, None, step, spectrum.observe_mhz))
+    if "2H" in hetero:
+        for group, j in _deuterium_groups(lines, roles, used, hz_per_point, thr):
+            used.update(group)
+            peak = _merge([lines[i] for i in group], y, at, hz_per_point, sigma, "sample", "C-D")
             peaks.append(_with_j(peak, j, None, step, spectrum.observe_mhz))
 
     if experiment == "carbon":
@@ -495,6 +502,65 @@ def _solvent_group(
         if misfit < 0.4 and (best is None or misfit < best[0]):
             best = (misfit, chosen)
     return None if best is None else best[1]
+
+
+def _deuterium_groups(
+    lines: list[Line], roles: list[str], used: set[int], hz_per_point: float, thr: float
+) -> list[tuple[list[int], float]]:
+    """C–D multiplets of deuterated sample carbons: CD3 septets, CD2 quintets, CD triplets.
+
+    Spin-1 first-order patterns (1:1:1, 1:2:3:2:1, 1:3:6:7:6:3:1) with ¹J(C,D) in
+    ``_CD_J_HZ`` (¹J(C,H)/6.51 for ¹J(C,H) 120–250 Hz; the ratio is γH/γD, the
+    couplings from memory); outer lines the pattern puts below the threshold may be
+    missing.  Larger multiplets are tried first; each line joins one group.
+    """
+    free = [i for i in range(len(lines)) if i not in used and roles[i] == "sample"]
+    pos = np.array([ln.pos for ln in lines]) * hz_per_point
+    out: list[tuple[list[int], float]] = []
+    taken: set[int] = set()
+    for nd in (3, 2, 1):
+        pattern = binomial_pattern(nd, spin2=True)
+        cands: list[tuple[float, list[int], float]] = []
+        for c in free:
+            if c in taken:
+                continue
+            for b in free:
+                d = pos[b] - pos[c]
+                if not _CD_J_HZ[0] <= d <= _CD_J_HZ[1]:
+                    continue
+                if np.sign(lines[b].height) != np.sign(lines[c].height):
+                    continue
+                tol = max(1.0, 0.05 * d)
+                group: list[int] = []
+                ks: list[int] = []
+                scale = abs(lines[c].height) / max(pattern)
+                ok = True
+                for k in range(-nd, nd + 1):
+                    near = [
+                        i
+                        for i in free
+                        if i not in taken
+                        and abs(pos[i] - (pos[c] + k * d)) < tol
+                        and np.sign(lines[i].height) == np.sign(lines[c].height)
+                    ]
+                    if near:
+                        group.append(min(near, key=lambda i: abs(pos[i] - (pos[c] + k * d))))
+                        ks.append(k + nd)
+                    elif scale * pattern[k + nd] > thr:
+                        ok = False
+                        break
+                if not ok or len(group) < 3 or len(set(group)) != len(group):
+                    continue
+                hs = np.array([abs(lines[i].height) for i in group])
+                misfit = pattern_fit(hs, tuple(pattern[k] for k in ks))
+                if misfit < 0.25:
+                    cands.append((misfit, group, float(d)))
+        for _misfit, group, d in sorted(cands, key=lambda t: t[0]):
+            if any(i in taken for i in group):
+                continue
+            taken.update(group)
+            out.append((group, d))
+    return out
 
 
 def _coupled_groups(
