@@ -357,3 +357,25 @@ def test_measured_coumarin_apt(spectra_dir: Path) -> None:
     assert all(s.evidence["apt"] > 0.2 for s in quaternary)
     ch = [s for s in obs.sample_signals if s.multiplicity == "CH"]
     assert len(ch) == 6 and all(s.evidence["apt"] < -0.2 for s in ch)
+
+
+def test_twice_as_tall_signal_is_flagged_conservatively() -> None:
+    # A signal holding two equivalent carbons is ~2x its class-mates in the carbon and
+    # the edited spectra; the hint must never fire on a single carbon (NOE jitter).
+    carbons = (
+        C(140.1, "C"),
+        C(128.9, "CH", carbons=2),
+        C(127.5, "CH"),
+        C(126.2, "CH"),
+        C(125.4, "CH"),
+        C(124.0, "CH"),
+        C(30.0, "CH2"),
+        C(21.0, "CH3"),
+    )
+    flagged = 0
+    for seed in range(6):
+        obs = classify(pick_all(synthesize(carbons, snr=100, seed=seed)), solvent="CDCl3")
+        multi = [s for s in obs.sample_signals if s.carbons > 1]
+        assert all(abs(s.ppm - 128.9) < 0.05 and s.carbons == 2 for s in multi)
+        flagged += len(multi)
+    assert flagged >= 3

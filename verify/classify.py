@@ -502,70 +502,107 @@ def _noe_terms(
     return out
 
 
-def _scores(data: _Data, scale: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]) -> _Fit:
-    """Score of every class for every row under given experiment scales and signs."""
+def _core(
+    data: _Data, scales: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]
+) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64], npt.NDArray[np.float64]]:
+    """Scores for a batch of scale vectors.
+
+    Parameters
+    ----------
+    data : _Data
+        The prepared problem.
+    scales : array, shape (B, E)
+        Experiment scales to try.
+    sign : array, shape (E,)
+        Experiment signs.
+
+    Returns
+    -------
+    total, chi, amp : arrays, shape (B, N, 4, K)
+        Score (data + amplitude prior + J/θ penalty), the data part alone, and the fitted
+        DEPT amplitude, per (J, θ) grid point.
+
+    """
     y = data.y * sign[None, :]  # (N, E)
-    n, e_count = y.shape
     dept = np.array([e != "apt" for e in data.edited])
     has_c = np.isfinite(data.hc)
     hc = np.where(has_c, data.hc, 1.0)
-    # model amplitude per unit u: g_e · hC · R  → (N, 4, K, E)
-    unit = scale[None, None, None, :] * hc[:, None, None, None] * data.resp
+    # model amplitude per unit u: g_e · hC · R  → (B, N, 4, K, E)
+    unit = scales[:, None, None, None, :] * (hc[:, None, None, None] * data.resp)[None]
     floor2 = (FLOOR * data.typical) ** 2  # (E,) raw units, like y
     s0 = data.sigma**2 + floor2[None, :] + (MODEL_ERROR * y) ** 2
-    chi = np.zeros(unit.shape[:3])
-    prior_amp = np.zeros(unit.shape[:3])
-    amp_out = np.ones(unit.shape[:3])
-    for block, spread in ((dept, DEPT_SPREAD), (~dept, APT_SPREAD)):
+    shape = unit.shape[:4]
+    chi = np.zeros(shape)
+    prior_amp = np.zeros(shape)
+    amp_out = np.ones(shape)
+    for is_dept, block, spread in ((True, dept, DEPT_SPREAD), (False, ~dept, APT_SPREAD)):
         if not np.any(block):
             continue
         ub = unit[..., block]
-        yb = y[:, None, None, block]
-        w = 1.0 / s0[:, None, None, block]
-        den = np.sum(w * ub * ub, axis=-1)
-        num = np.sum(w * ub * yb, axis=-1)
+        yb = y[None, :, None, None, block]
+        w = 1.0 / s0[None, :, None, None, block]
+        den = np.einsum("...e,...e->...", w * ub, ub)
+        num = np.einsum("...e,...e->...", w * ub, np.broadcast_to(yb, ub.shape))
         with np.errstate(divide="ignore", invalid="ignore"):
             u = np.where(den > 0, num / den, 1.0)
         u = np.clip(u, math.exp(-3.5), math.exp(3.5))
         pred = u[..., None] * ub
         # relative model error on the geometric mean of prediction and observation:
         # a predicted zero (quaternary) keeps the bare noise, a 2× mismatch costs ~12
-        s_eff = (
-            data.sigma[:, None, None, block] ** 2
-            + floor2[None, None, None, block]
-            + MODEL_ERROR**2 * np.abs(pred * yb)
+        s_eff = (data.sigma[:, block] ** 2 + floor2[block])[None, :, None, None, :] + (
+            MODEL_ERROR**2 * np.abs(pred * yb)
         )
-        chi += np.sum(np.minimum((yb - pred) ** 2 / s_eff, CHI2_CAP), axis=-1)
+        chi += np.minimum((yb - pred) ** 2 / s_eff, CHI2_CAP).sum(axis=-1)
         active = den > 0
-        pa = np.where(active & has_c[:, None, None], (np.log(u) / spread) ** 2, 0.0)
+        with_c = has_c[None, :, None, None]
+        pa = np.where(active & with_c, (np.log(u) / spread) ** 2, 0.0)
         # without a carbon height the amplitude is free, but it must be positive
-        pa = np.where(active & ~has_c[:, None, None] & (num <= 0), 25.0, pa)
+        pa = np.where(active & ~with_c & (num <= 0), 25.0, pa)
         prior_amp += pa
-        if block is dept:
+        if is_dept:
             amp_out = np.where(active, u, amp_out)
-    total = chi + prior_amp + data.pen
-    k_best = np.argmin(total, axis=2)  # (N, 4)
-    idx = np.arange(n)[:, None], np.arange(4)[None, :], k_best
-    best = total[idx] + data.logprior + data.noe
-    chi_best = chi[idx]
+    return chi + prior_amp + data.pen[None], chi, amp_out
+
+
+def _finish(data: _Data, best: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
+    """Add class priors and rule out impossible classes; `best` has shape (..., N, 4)."""
+    best = best + data.logprior + data.noe
+    has_c = np.isfinite(data.hc)
     # a signal seen only in DEPT spectra carries protium (APT also shows quaternary C)
-    best[~has_c & ~data.apt_only, 0] = np.inf
+    best[..., ~has_c & ~data.apt_only, 0] = np.inf
     forced = data.fixed >= 0
     if np.any(forced):
-        mask = np.ones((n, 4), dtype=bool)
+        mask = np.ones(best.shape[-2:], dtype=bool)
         mask[np.where(forced)[0], data.fixed[forced]] = False
         best = np.where(forced[:, None] & mask, np.inf, best)
-    return _Fit(scores=best, chi2=chi_best, amp=amp_out[idx], best_k=k_best)
+    return best
+
+
+def _scores(data: _Data, scale: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]) -> _Fit:
+    """Score of every class for every row under given experiment scales and signs."""
+    total, chi, amp = (a[0] for a in _core(data, scale[None, :], sign))
+    n = total.shape[0]
+    k_best = np.argmin(total, axis=2)  # (N, 4)
+    idx = np.arange(n)[:, None], np.arange(4)[None, :], k_best
+    best = _finish(data, total[idx])
+    return _Fit(scores=best, chi2=chi[idx], amp=amp[idx], best_k=k_best)
+
+
+def _totals(
+    data: _Data, scales: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]
+) -> npt.NDArray[np.float64]:
+    """Total score of each scale vector of a batch (B, E) → (B,)."""
+    total, _, _ = _core(data, scales, sign)
+    best = _finish(data, np.min(total, axis=3))  # (B, N, 4)
+    per_row = np.min(best, axis=2)
+    # robust: a row no class explains (overlap, picking junk) cannot steer the scales
+    capped = np.minimum(np.where(np.isfinite(per_row), per_row, 1e6), ROW_CAP)
+    rows = np.sum(data.weight[None, :] * capped, axis=1)
+    return np.asarray(rows + np.array([_scale_prior(data, sc) for sc in scales]), dtype=float)
 
 
 def _total(data: _Data, scale: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]) -> float:
-    fit = _scores(data, scale, sign)
-    per_row = np.min(fit.scores, axis=1)
-    # robust: a row no class explains (overlap, picking junk) cannot steer the scales
-    rows = float(
-        np.sum(data.weight * np.minimum(np.where(np.isfinite(per_row), per_row, 1e6), ROW_CAP))
-    )
-    return rows + _scale_prior(data, scale)
+    return float(_totals(data, scale[None, :], sign)[0])
 
 
 def _scale_prior(data: _Data, scale: npt.NDArray[np.float64]) -> float:
@@ -640,12 +677,12 @@ def _fit_globals(
                     grid = start[k] * np.exp(np.linspace(-4.0, 4.0, 41))
                 else:
                     grid = scale[k] * np.exp(np.linspace(-0.4, 0.4, 17) / sweep)
-                for value in grid:
-                    trial = scale.copy()
-                    trial[k] = value
-                    t = _total(data, trial, sign)
-                    if t < total - 1e-9:
-                        total, scale = t, trial
+                trials = np.repeat(scale[None, :], grid.size, axis=0)
+                trials[:, k] = grid
+                values = _totals(data, trials, sign)
+                pick = int(np.argmin(values))
+                if values[pick] < total - 1e-9:
+                    total, scale = float(values[pick]), trials[pick].copy()
             if sweep > 0 and total > before - 1e-6:
                 break
         # the stored phase is more often right than not (processed exports are usually
