@@ -715,7 +715,9 @@ def _sp3(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> _Prediction:
                     ppm += g[0] if terminal else g[1]
                     n_groups += 1
                     ppm += _beyond_unsaturated(mol, x, a, visited)
-                    n_hetero += a.GetAtomicNum() in (7, 8, 16) or a.GetAtomicNum() in _HALOGENS
+                    n_hetero += _is_hetero(a)
+                elif level == 1 and n_hetero and _is_hetero(a):
+                    ppm += g[2] * k["beta_on_hetero"]
                 else:
                     ppm += g[level + 1]
         frontier = following
@@ -729,6 +731,10 @@ def _sp3(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> _Prediction:
     ppm += _steric(mol, atom, rings)
     ppm += _ring_correction(mol, atom, rings)
     return _Prediction(ppm, math.hypot(sd["sp3"], sd["sp3_per_increment"] * math.sqrt(n)), "sp3")
+
+
+def _is_hetero(atom: Chem.Atom) -> bool:
+    return atom.GetAtomicNum() in (7, 8, 16) or atom.GetAtomicNum() in _HALOGENS
 
 
 def _ring_correction(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> float:
