@@ -813,3 +813,28 @@ def test_disagreeing_axis_labels_are_settled_by_the_data_lines(tmp_path: Path) -
         SpectrumFormatError, match=r"points are missing or extra.*both\.dx, line 16"
     ):
         read_jcamp(_file(tmp_path, "both.dx", text + GOOD_DATA))
+
+
+def test_affn_and_pac_with_decimals_and_exponents(tmp_path: Path) -> None:
+    # AFFN and PAC ordinates may carry decimals and exponents (JCAMP-DX 4.24)
+    text = HEAD.format(n=8).replace("##XFACTOR= 1", "##XFACTOR= 0.5")
+    data = "0 1.5E1 2.25e0,-3e-1 4\n8+5-6.5+7E1\n14 8\n##END=\n"
+    spec = read_jcamp(_file(tmp_path, "affn.dx", text + data))
+    np.testing.assert_allclose(spec.intensity, [15, 2.25, -0.3, 4, 5, -6.5, 70, 8])
+    assert set(spec.provenance["compression"]) == {"AFFN", "PAC"}
+
+
+def test_header_count_bounded_by_file_size(tmp_path: Path) -> None:
+    # 50 million points promised by a file of a few hundred bytes (with a DUP bomb)
+    text = HEAD.format(n=50_000_000) + "0@Z9999999\n##END=\n"
+    with pytest.raises(SpectrumFormatError, match=r"cannot fit in a file of \d+ bytes.*line 13"):
+        read_jcamp(_file(tmp_path, "fit.dx", text))
+
+
+@pytest.mark.parametrize("form", ["SQZ", "SQZDUP", "DIF"])
+def test_sqz_values_that_all_start_with_five(tmp_path: Path, form: str) -> None:
+    # SQZ writes 5…, -5… as E…, e…, which look like exponents when no other letter occurs
+    values = np.array([5.0, 55.0, 5000.0, -59.0, 5.0, 5.0])
+    spec = Spectrum(ppm=np.linspace(10, 0, values.size), intensity=values)
+    write_jcamp(spec, tmp_path / "e.dx", form=form)
+    np.testing.assert_array_equal(read_jcamp(tmp_path / "e.dx").intensity, values)

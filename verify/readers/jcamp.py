@@ -92,13 +92,15 @@ from verify.readers._common import (
     normalise_nucleus,
 )
 
-__all__ = ["FORMS", "MAX_POINTS", "read_jcamp", "write_jcamp"]
+__all__ = ["FORMS", "MAX_POINTS", "MAX_POINTS_PER_BYTE", "read_jcamp", "write_jcamp"]
 
 #: Compression forms :func:`write_jcamp` can write.
 FORMS: tuple[str, ...] = ("AFFN", "PAC", "SQZ", "SQZDUP", "DIF", "DIFDUP")
 _FORM_ALIASES = {"DUP": "SQZDUP", "DUPSQZ": "SQZDUP", "SQZDUP": "SQZDUP", "DUPDIF": "DIFDUP"}
 #: Largest point count accepted from a header (2**26; 1D NMR data hold at most ~2**20).
 MAX_POINTS: int = 1 << 26
+#: Most points a header may promise per byte of file (DUP of a flat line compresses well).
+MAX_POINTS_PER_BYTE: int = 1000
 
 # --------------------------------------------------------------------------- parsing
 
@@ -129,6 +131,7 @@ class _Block:
     labels: dict[str, tuple[str, int]] = field(default_factory=dict)
     tables: list[_Table] = field(default_factory=list)
     ended: bool = False
+    size: int = 0  # bytes of the whole file, to bound what a header may promise
 
 
 _DATA_LABELS = {"XYDATA", "DATATABLE", "XYPOINTS", "PEAKTABLE"}
@@ -190,8 +193,10 @@ def _parse(text: str, path: Path) -> list[_Block]:
 # --------------------------------------------------------------------------- decoding
 
 _X_RE = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]\d+)?")
+_X_NUM_RE = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 _BAD_CHAR_RE = re.compile(r"[^0-9@%A-Za-s+\-.\s,]")
-_ASDF_RE = re.compile(r"[@%A-DF-Za-df-s]|[Ee](?![+-]\d)")
+# ASDF letters other than E/e: with none of them, an E/e is an exponent (AFFN)
+_ASDF_RE = re.compile(r"[@%A-DF-Za-df-s]")
 _SPACE_MAP = str.maketrans(
     {c: " " + c for c in "@%ABCDEFGHIabcdefghiJKLMNOPQRjklmnopqrSTUVWXYZs+-"}
 )
@@ -292,6 +297,9 @@ def _tokens_fast(table: _Table, path: Path) -> _Tokens | None:
             path=path,
             line=table.linenos[int(np.count_nonzero(cls[:pos] == _C_NL))],
         )
+    is_e = (b == 69) | (b == 101)
+    if np.any(is_e) and not np.any((cls >= _C_SQZP) & (cls <= _C_DUP) & ~is_e):
+        return None  # only E/e among the letters: exponents, read by the string path
     is_dig = cls == _C_DIG
     sep_before = np.empty(b.size, dtype=bool)
     sep_before[0] = True
@@ -358,16 +366,23 @@ def _tokens_fast(table: _Table, path: Path) -> _Tokens | None:
     return _Tokens(vals[xk], vals[y], kind[y], line_index[y], linenos, forms)
 
 
-def _tokens_slow(table: _Table, path: Path) -> _Tokens:
-    """Tokenise any data (decimals, exponents) with regular expressions, line by line."""
+def _tokens_slow(table: _Table, path: Path, *, force_asdf: bool = False) -> _Tokens:
+    """Tokenise any data (decimals, exponents) with regular expressions, line by line.
+
+    Without ASDF letters other than E/e, an E/e is read as an exponent (AFFN); with
+    ``force_asdf`` it is read as SQZ 5 (the caller retries so when the AFFN reading
+    fails, as for SQZ data whose values all start with a 5).
+    """
     xs: list[str] = []
     rests: list[str] = []
     linenos: list[int] = []
-    for no, raw in zip(table.linenos, table.lines, strict=True):
-        s = _strip_comment(raw)
+    stripped = [_strip_comment(raw) for raw in table.lines]
+    asdf = force_asdf or any(_ASDF_RE.search(s) for s in stripped)
+    x_re = _X_RE if asdf else _X_NUM_RE  # without ASDF letters 1.5E3 is an exponent
+    for no, s in zip(table.linenos, stripped, strict=True):
         if not s:
             continue
-        m = _X_RE.match(s)
+        m = x_re.match(s)
         if m is None:
             raise SpectrumFormatError(
                 f"data line does not start with an abscissa: {s[:24]!r}", path=path, line=no
@@ -390,7 +405,7 @@ def _tokens_slow(table: _Table, path: Path) -> _Tokens:
             line=_line_of(ytext, bad.start(), linenos),
         )
     nlines = len(linenos)
-    if _ASDF_RE.search(ytext):
+    if asdf:
         spaced = ytext.translate(_SPACE_MAP)
         if _BARE_FIND_RE.search(spaced):
             spaced = _BARE_RE.sub("+", spaced)
@@ -427,13 +442,25 @@ def _tokens_slow(table: _Table, path: Path) -> _Tokens:
         kind,
         line_of_tok.astype(np.int64),
         linenos,
-        _forms_seen(kind, ytext),
+        _forms_seen(kind, ytext, asdf),
     )
 
 
 def _decode_xy(table: _Table, path: Path, limit: int) -> _Decoded:
     """Decode an ``(X++(Y..Y))`` block, verifying checkpoints; abscissae are returned."""
-    toks = _tokens_fast(table, path) or _tokens_slow(table, path)
+    toks = _tokens_fast(table, path)
+    if toks is not None:
+        return _assemble(toks, table, path, limit)
+    try:
+        return _assemble(_tokens_slow(table, path), table, path, limit)
+    except SpectrumFormatError:
+        if not any(("E" in s or "e" in s) for s in table.lines):
+            raise
+        return _assemble(_tokens_slow(table, path, force_asdf=True), table, path, limit)
+
+
+def _assemble(toks: _Tokens, table: _Table, path: Path, limit: int) -> _Decoded:
+    """Expand DUP, add up DIF runs and verify the Y-checkpoints of tokenised data."""
     vals, kind, line_of_tok, linenos = toks.vals, toks.kind, toks.line, toks.linenos
     nlines = len(linenos)
     if vals.size == 0:
@@ -527,11 +554,11 @@ def _decode_xy(table: _Table, path: Path, limit: int) -> _Decoded:
     return _Decoded(y, toks.x, first_index, linenos, int(need.size), forms)
 
 
-def _forms_seen(kind: npt.NDArray[np.int64], ytext: str) -> tuple[str, ...]:
+def _forms_seen(kind: npt.NDArray[np.int64], ytext: str, asdf: bool) -> tuple[str, ...]:
     hits = (
         ("AFFN", re.search(r"(?<!\S)[\d.]", ytext) is not None),
         ("PAC", re.search(r"(?<![eE])[+-]", ytext) is not None),
-        ("SQZ", re.search(r"[@A-Ia-i]", ytext) is not None),
+        ("SQZ", asdf and re.search(r"[@A-Ia-i]", ytext) is not None),
         ("DIF", bool(np.any(kind == 1))),
         ("DUP", bool(np.any(kind == 2))),
     )
@@ -738,14 +765,25 @@ def read_jcamp(path: str | os.PathLike[str]) -> Spectrum | Fid:
     labels = block.labels
     dclass = (_text(labels, "DATACLASS") or "").upper()
     dtype = (_text(labels, "DATATYPE") or "").upper()
+    block.size = len(text)
     if "NTUPLES" in labels or dclass.startswith("NTUPLES"):
         return _read_ntuples(block, p, dtype)
     return _read_xydata(block, p, dtype)
 
 
 def _check_count(
-    count: float | None, key: str, labels: dict[str, tuple[str, int]], path: Path
+    count: float | None,
+    key: str,
+    labels: dict[str, tuple[str, int]],
+    path: Path,
+    size: int = 0,
 ) -> int | None:
+    """Validate a header point count before anything is allocated from it.
+
+    The count must be a whole number ≥ 2, at most :data:`MAX_POINTS`, and at most
+    :data:`MAX_POINTS_PER_BYTE` times the file size (DUP compression of a flat line
+    is the only way to beat one character per point).
+    """
     if count is None:
         return None
     if count != int(count) or count < 2:
@@ -758,6 +796,13 @@ def _check_count(
         raise SpectrumFormatError(
             f"##{key}= {int(count)} is absurdly large (more than {MAX_POINTS} points);"
             " the header is corrupt",
+            path=path,
+            line=labels.get(key, ("", None))[1],
+        )
+    if size and count > MAX_POINTS_PER_BYTE * size:
+        raise SpectrumFormatError(
+            f"##{key}= {int(count)} points cannot fit in a file of {size} bytes; the header"
+            " is corrupt or the file truncated",
             path=path,
             line=labels.get(key, ("", None))[1],
         )
@@ -833,7 +878,7 @@ def _read_xydata(block: _Block, path: Path, dtype: str) -> Spectrum | Fid:
             path=path,
             line=table.line,
         )
-    npoints = _check_count(_num(labels, "NPOINTS", path), "NPOINTS", labels, path)
+    npoints = _check_count(_num(labels, "NPOINTS", path), "NPOINTS", labels, path, block.size)
     yfactor = _num(labels, "YFACTOR", path) or 1.0
     xfactor = _num(labels, "XFACTOR", path) or 1.0
     xunits = (_text(labels, "XUNITS") or "HZ").upper()
@@ -924,8 +969,12 @@ def _read_ntuples(block: _Block, path: Path, dtype: str) -> Spectrum | Fid:
                 f"data table variable {sym} is not in ##SYMBOL=", path=path, line=table.line
             )
         col = symbols.index(sym)
-        dim = _check_count(_col_num(labels, "VARDIM", col, path), "VARDIM", labels, path)
-        page_np = _check_count(_num(table.page, "NPOINTS", path), "NPOINTS", table.page, path)
+        dim = _check_count(
+            _col_num(labels, "VARDIM", col, path), "VARDIM", labels, path, block.size
+        )
+        page_np = _check_count(
+            _num(table.page, "NPOINTS", path), "NPOINTS", table.page, path, block.size
+        )
         if dim is None and page_np is None:
             raise SpectrumFormatError("##VAR_DIM= is missing", path=path, line=table.line)
         npts = page_np if page_np is not None else dim
