@@ -600,3 +600,18 @@ def test_signal_shared_by_sample_and_impurity_keeps_both_names() -> None:
     assert "C8" in mark.text and "acetone" in mark.text
     row = doc.by_id("assignment").find_all("tr", data_atoms="C8")[0]
     assert "shared with acetone" in row.text
+
+
+@pytest.mark.parametrize(
+    ("window", "first", "step"), [((-5.0, 215.0), "0", 20.0), ((29.0, 31.0), "29.0", 0.1)]
+)
+def test_axis_ticks_step_through_the_1_2_5_series(
+    window: tuple[float, float], first: str, step: float
+) -> None:
+    spec = make_verdict().observation.peaksets["carbon"].spectrum
+    assert spec is not None
+    svg = parse(spectrum_stack_svg([("carbon", spec)], [], ppm_range=window))
+    labels = [n.text for n in svg.find_all("text") if n.attrs.get("text-anchor") == "middle"]
+    values = sorted(float(t) for t in labels)
+    assert labels[0] == first and "-0" not in labels
+    assert np.allclose(np.diff(values), step)

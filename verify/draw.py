@@ -588,21 +588,22 @@ def spectrum_stack_svg(
     )
     step = nice_step(hi - lo, plot_w)
     minor = step / 2
-    t = math.ceil(lo / minor) * minor
-    while t <= hi + 1e-9:
+    decimals = max(0, -math.floor(math.log10(step) + 1e-9))
+    first, last = math.ceil(lo / minor - 1e-9), math.floor(hi / minor + 1e-9)
+    for k in range(first, last + 1):  # ticks by index: no drift, no "-0"
+        t = round(k * minor, decimals + 2) + 0.0
         x = px(t)
-        major = abs(t / step - round(t / step)) < 1e-6
+        major = k % 2 == 0
         out.append(
             f'<path d="M{x:.1f} {axis_y:.1f}v{6 if major else 3}" stroke="{PALETTE["ink"]}" '
             f'stroke-width="1"/>'
         )
         if major:
-            label = f"{t:.0f}" if step >= 1 else f"{t:.1f}"
+            label = f"{t:.{decimals}f}"
             out.append(
                 f'<text x="{x:.1f}" y="{axis_y + 19:.1f}" font-size="11" text-anchor="middle" '
                 f'fill="{PALETTE["ink"]}">{label}</text>'
             )
-        t += minor
     out.append(
         f'<text x="{left + plot_w:.1f}" y="{axis_y + 35:.1f}" font-size="11" '
         f'text-anchor="end" fill="{PALETTE["muted"]}">\u03b4 (ppm), high shift on the left</text>'
