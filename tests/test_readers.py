@@ -839,3 +839,9 @@ def test_sqz_values_that_all_start_with_five(tmp_path: Path, form: str) -> None:
     spec = Spectrum(ppm=np.linspace(10, 0, values.size), intensity=values)
     write_jcamp(spec, tmp_path / "e.dx", form=form)
     np.testing.assert_array_equal(read_jcamp(tmp_path / "e.dx").intensity, values)
+
+
+def test_byte_order_mark_and_crlf(tmp_path: Path) -> None:
+    text = (HEAD.format(n=8) + GOOD_DATA).replace("\n", "\r\n")
+    path = _file(tmp_path, "bom.dx", b"\xef\xbb\xbf" + text.encode())
+    np.testing.assert_array_equal(read_any(path).intensity, [10, 12, 15, 19, 24, 30, 37, 45])

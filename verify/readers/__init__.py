@@ -84,7 +84,7 @@ def sniff(path: str | os.PathLike[str]) -> tuple[str, Path]:
             " holds acqus and fid, or a JCAMP-DX export",
             path=p,
         )
-    text = head.decode("latin-1")
+    text = head.removeprefix(b"\xef\xbb\xbf").decode("latin-1")
     first = next((ln.strip() for ln in text.splitlines() if ln.strip()), "")
     if first.startswith("##") and _JCAMP_HEAD.search(text):
         return "jcamp", p

@@ -699,6 +699,8 @@ def _read_text(path: Path) -> str:
             "the file is binary, not JCAMP-DX text (a raw FID is read from its folder)",
             path=path,
         )
+    if data.startswith(b"\xef\xbb\xbf"):  # a UTF-8 byte-order mark
+        data = data[3:]
     return data.decode("latin-1")
 
 
