@@ -88,7 +88,7 @@ APT_SPREAD = 0.35
 #: Cap of one value's χ² contribution (robustness against a mismatched peak).
 CHI2_CAP = 400.0
 #: Log spread of the unit-response SNR between DEPT experiments of one sample.
-SCALE_SPREAD = 0.7
+SCALE_SPREAD = 0.5
 #: Score cost of reading a DEPT-135/APT with the opposite of its stored phase.
 FLIP_PRIOR = 2.2
 #: Cap of one signal's score in the global scale/sign fit.
@@ -629,10 +629,11 @@ def _fit_globals(
 ) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64], float]:
     """Experiment scales and signs that minimise the total score (profile likelihood).
 
-    DEPT-90 and DEPT-45 show only positive signals at their nominal angles, so their
-    sign is the sign of their strong peaks.  For DEPT-135 and APT every sign is tried;
-    for each sign combination the scales are found by coordinate search, first on a
-    wide logarithmic grid (e^±4 around a median-based start), then refined.
+    Every sign combination is tried (the stored phase is favoured by FLIP_PRIOR per
+    flipped experiment; a DEPT-90 of a sample with few CH can be dominated by negative
+    CH2 residuals, so even its sign is not taken from the majority of its peaks); for
+    each combination the scales are found by coordinate search, first on a wide
+    logarithmic grid (e^±4 around a median-based start), then refined.
     """
     e_count = len(data.edited)
     has_c = np.isfinite(data.hc) & (data.hc > 0)
@@ -651,12 +652,7 @@ def _fit_globals(
         else:
             val = 1.0
         start[k] = val if val > 0 else 1.0
-        if e in ("dept90", "dept45"):
-            vals = data.y[strong, k]
-            if vals.size and float(np.sum(vals)) < 0:
-                fixed_sign[k] = -1.0
-        else:
-            free.append(k)
+        free.append(k)
     # without a carbon spectrum the first edited experiment fixes the amplitude unit
     base = -1 if np.any(has_c) else 0
     best_total = math.inf
