@@ -291,7 +291,14 @@ def run_model(
         print("\n".join(examples))
 
 
-def run_spectra(records: list[Record], exps: list[Expectation | None], n: int, seed: int) -> None:
+def run_spectra(
+    records: list[Record],
+    exps: list[Expectation | None],
+    n: int,
+    seed: int,
+    snr: float = 100.0,
+    experiments: tuple[str, ...] = ("carbon", "dept90", "dept135"),
+) -> None:
     try:
         from verify import classify, peaks, simulate  # noqa: F401
     except ImportError as exc:
@@ -320,7 +327,7 @@ def run_spectra(records: list[Record], exps: list[Expectation | None], n: int, s
         if exp is None:
             continue
         rec = records[i]
-        obs = observe_by_spectra(rec.shifts, rec.mol, seed + i)
+        obs = observe_by_spectra(rec.shifts, rec.mol, seed + i, snr=snr, experiments=experiments)
         if obs is None:
             continue
         done += 1
@@ -337,7 +344,10 @@ def run_spectra(records: list[Record], exps: list[Expectation | None], n: int, s
             kind = "differs" if inventory_key(dexp) != inventory_key(exp) else "same"
             decoy[kind][judge(dexp, obs, config=CONFIG).verdict] += 1
     dt = time.perf_counter() - t0
-    print(f"\n== synthetic spectra → pick → classify ({done} records, {dt:.0f} s) ==")
+    print(
+        f"\n== synthetic spectra → pick → classify ({done} records, {'+'.join(experiments)}, "
+        f"SNR {snr:g}, {dt:.0f} s) =="
+    )
     print(f"  pass     : {pct(counts['pass'], done)}")
     print(f"  not fail : {pct(counts['pass'] + counts['review'], done)}")
     for kind in ("differs", "same"):
@@ -355,6 +365,8 @@ def main() -> int:
     ap.add_argument("--no-predict", action="store_true", help="do not fill predicted shifts")
     ap.add_argument("--max-decoys", type=int, default=5)
     ap.add_argument("--spectra", type=int, default=0, help="also run N records through spectra")
+    ap.add_argument("--spectra-snr", type=float, default=100.0)
+    ap.add_argument("--spectra-experiments", default="carbon,dept90,dept135")
     ap.add_argument("--seed", type=int, default=20260)
     ap.add_argument(
         "--set", action="append", default=[], metavar="NAME=VALUE", help="VerdictConfig field"
@@ -394,7 +406,14 @@ def main() -> int:
     for model in args.models.split(","):
         run_model(records, exps, model.strip(), args.max_decoys, args.seed)
     if args.spectra:
-        run_spectra(records, exps, args.spectra, args.seed)
+        run_spectra(
+            records,
+            exps,
+            args.spectra,
+            args.seed,
+            snr=args.spectra_snr,
+            experiments=tuple(args.spectra_experiments.split(",")),
+        )
     return 0
 
 

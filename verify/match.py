@@ -4,9 +4,11 @@ The assignment is the minimum-cost matching of sample signals to carbon classes 
 
 * each class sits on at most one signal, or on none (a missing carbon, at a cost);
 * a signal may hold several classes: a diastereotopic or rotamer pair
-  (``CarbonClass.partner``) at a small cost, any other coincidence (accidental overlap) at a
-  larger one, which is smaller again when the signal is tall enough for two carbons or its
-  edited-spectrum behaviour is mixed;
+  (``CarbonClass.partner``) at a small cost, any other coincidence (accidental overlap) at
+  ``supported_overlap_cost`` per extra class plus a cost for every carbon the signal holds
+  beyond its height (``Signal.carbons``, compared with :func:`relative_carbons`, since the
+  classifier measures tallness against class-mates), so a signal twice as tall as its
+  neighbours takes a second class cheaply and an ordinary one does not;
 * a class of several symmetry-equivalent carbons may take a second signal within
   ``split_window_ppm`` of its first (hindered rotation, diastereotopic groups that the
   topology calls equivalent), at a cost;
@@ -17,9 +19,10 @@ weighted by the call's confidence (a candidate list such as "CH or CH3" is partl
 call is no information); the distance outside the class's handbook shift range (zero inside,
 quadratic outside); the distance from a predicted shift when there is one (Huber in units of
 the prediction's standard deviation, capped: a predictor's outliers must not stop a carbon
-from taking the only peak left for it); heteronuclear splitting agreement (a C–F doublet wants a
-fluorine-coupled class); and a weak intensity hint.  Costs and weights live in
-:class:`verify.verdict.VerdictConfig`.
+from taking the only peak left for it; a prediction within two sigma also shrinks the range
+term, the structure-specific estimate outweighing the coarse range); heteronuclear
+splitting agreement (a C–F doublet wants a fluorine-coupled class); and a weak intensity
+hint.  Costs and weights live in :class:`verify.verdict.VerdictConfig`.
 
 The optimum is found exactly as a small mixed-integer program (HiGHS through
 :func:`scipy.optimize.milp`): plain :func:`scipy.optimize.linear_sum_assignment` on a
