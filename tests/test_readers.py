@@ -845,3 +845,9 @@ def test_byte_order_mark_and_crlf(tmp_path: Path) -> None:
     text = (HEAD.format(n=8) + GOOD_DATA).replace("\n", "\r\n")
     path = _file(tmp_path, "bom.dx", b"\xef\xbb\xbf" + text.encode())
     np.testing.assert_array_equal(read_any(path).intensity, [10, 12, 15, 19, 24, 30, 37, 45])
+
+
+def test_peak_table_only_is_refused(tmp_path: Path) -> None:
+    text = HEAD.format(n=2).replace("##XYDATA= (X++(Y..Y))", "##PEAK TABLE= (XY..XY)")
+    with pytest.raises(SpectrumFormatError, match=r"only a peak table.*CSV.*pt\.dx, line 14"):
+        read_jcamp(_file(tmp_path, "pt.dx", text + "77.16, 100\n128.0, 50\n##END=\n"))

@@ -873,7 +873,15 @@ def _abscissa_step(
 
 def _read_xydata(block: _Block, path: Path, dtype: str) -> Spectrum | Fid:
     labels = block.labels
-    table = next((t for t in block.tables if t.label == "XYDATA"), block.tables[0])
+    usable = [t for t in block.tables if t.label in ("XYDATA", "XYPOINTS")]
+    if not usable:
+        raise SpectrumFormatError(
+            "the file holds only a peak table, not a spectrum; export the spectrum, or give"
+            " the peaks as a CSV peak list (ppm,intensity)",
+            path=path,
+            line=block.tables[0].line,
+        )
+    table = next((t for t in usable if t.label == "XYDATA"), usable[0])
     if "FID" in dtype:
         raise SpectrumFormatError(
             "an NMR FID needs real and imaginary parts (NTUPLES); this XYDATA file has one",
