@@ -9,13 +9,18 @@ over ±3 widths (clipped half-way to the next line).
 
 Artefacts are kept with role ``"artifact"``: single-point spikes (narrower than
 one point where real lines span several), broad humps of the baseline (wider
-than 50 Hz and 8× the typical line), and the opposite-sign lobes beside a large
-mis-phased line.
+than 50 Hz and 8× the typical line), the opposite-sign lobes beside a large
+mis-phased line and the broad feet/skirts under a sharp one, ¹³C–¹³C satellites
+and symmetric sideband pairs, and the evenly spaced ripples of a truncated FID.
+In the carbon spectrum a line far weaker than the typical one (below 6 %) gets
+role ``"impurity"``; in edited spectra the weak lines where the solvent's
+protonated isotopologue (CHCl3, CHD2…) resonates get role ``"solvent"``.
 
 Lines that belong to one carbon are grouped into one :class:`~verify.model.Peak`:
 the solvent multiplet (role ``"solvent"``), and — only when the structure contains
-¹⁹F or ³¹P — doublets (and C–F triplets/quartets) of about equal lines whose
-spacing falls in a handbook range for C–F or C–P couplings.
+¹⁹F, ³¹P or ²H — doublets (and C–F triplets/quartets) of about equal lines whose
+spacing falls in a handbook range for C–F or C–P couplings, and C–D triplets,
+quintets and septets.
 
 References
 ----------

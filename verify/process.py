@@ -15,8 +15,10 @@ The stage is pure: a :class:`~verify.model.Fid` goes in, a new
    same as a circular shift of the zero-filled FID, so no point is discarded and
    the filter's pre-response lands in the zero-filled tail where it belongs
    (circularly just before time zero) instead of being cut off.
-4. Phase correction ``p0 + p1·x`` (x the frequency as a fraction of the spectral
-   width, pivot at the carrier) fitted to the phases of isolated peak regions
+4. A smooth complex baseline is removed from the real and imaginary parts (it
+   commutes with the phase rotation), then the phase ``p0 + p1·x`` (x the
+   frequency as a fraction of the spectral width, pivot at the carrier) is fitted
+   to the phases of the integrated isolated peak regions by circular regression
    (see :func:`_fit_phase`).  In the sign-free mode (DEPT/APT) each region's phase
    counts modulo 180°, so an inverted line pulls no harder than an upright one and
    the overall sign is left for the classification stage; for the broadband
@@ -24,7 +26,14 @@ The stage is pure: a :class:`~verify.model.Fid` goes in, a new
    is then made positive.
 5. Baseline: a smooth curve through the block medians of the points that are
    not signal (signal masked by ``|y - baseline| > 4σ``, symmetric, so negative
-   lines are masked exactly like positive ones), iterated three times.
+   lines are masked exactly like positive ones), refined three times
+   (:func:`verify._lines.smooth_baseline`).
+
+Why not an entropy autophase (Chen et al. 2002): it rewards a spectrum whose
+largest lines are upright and so turns a DEPT-135 whose CH2 lines dominate upside
+down.  The peak-region fit uses only where the lines are, is sign-free by
+construction when the angles are doubled, and on the shared raw FIDs reproduces
+the instrument's peak positions within 0.012 ppm (tests/test_process.py).
 
 References
 ----------
