@@ -851,3 +851,18 @@ def test_peak_table_only_is_refused(tmp_path: Path) -> None:
     text = HEAD.format(n=2).replace("##XYDATA= (X++(Y..Y))", "##PEAK TABLE= (XY..XY)")
     with pytest.raises(SpectrumFormatError, match=r"only a peak table.*CSV.*pt\.dx, line 14"):
         read_jcamp(_file(tmp_path, "pt.dx", text + "77.16, 100\n128.0, 50\n##END=\n"))
+
+
+@settings(max_examples=25, deadline=None)
+@given(
+    re_part=st.lists(st.integers(-(2**31), 2**31), min_size=8, max_size=120),
+    form=st.sampled_from(FORMS),
+)
+def test_property_integer_fid_round_trip(re_part: list[int], form: str) -> None:
+    values = np.asarray(re_part, dtype=np.int64)
+    data = values + 1j * values[::-1]
+    fid = Fid(data=data, dwell_s=5e-5, observe_mhz=100.6, carrier_ppm=100.0)
+    with tempfile.TemporaryDirectory() as d:
+        write_jcamp(fid, Path(d) / "f.dx", form=form)
+        back = read_jcamp(Path(d) / "f.dx")
+    np.testing.assert_array_equal(back.data, data)
