@@ -105,8 +105,8 @@ def test_spectra_panels_in_order_and_solvent_impurity_labelled() -> None:
     assert "solvent" in marks[77.16].text
     assert marks[171.1].attrs["data-status"] == "impurity"
     assert "ethyl acetate" in marks[171.1].text
-    # the mismatched signal differs in words, not only in colour
-    assert marks[130.6].attrs["data-status"] == "mismatch" and "mismatch" in marks[130.6].text
+    # the signal of a review finding differs in shape and words, not only in colour
+    assert marks[130.6].attrs["data-status"] == "mismatch" and "check" in marks[130.6].text
     assert marks[196.8].attrs["data-status"] == "agree" and "C7" in marks[196.8].text
     # solvent table row
     solvent_rows = doc.by_id("solvent-signals").find_all("tr", data_role="solvent")
@@ -615,3 +615,15 @@ def test_axis_ticks_step_through_the_1_2_5_series(
     values = sorted(float(t) for t in labels)
     assert labels[0] == first and "-0" not in labels
     assert np.allclose(np.diff(values), step)
+
+
+def test_signal_of_a_fail_finding_says_mismatch() -> None:
+    # FAIL names atoms 3 and 4 (C4/C11 and C5/C10 of the fixture)
+    doc = parse(render_html(make_verdict(verdict="fail", findings=(FAIL, REVIEW))))
+    marks = {float(n.attrs["data-ppm"] or 0): n for n in doc.by_id("spectra").find_all("g")
+             if n.attrs.get("class") == "mark"}  # fmt: skip
+    for ppm in (113.7, 130.6):
+        assert marks[ppm].attrs["data-status"] == "mismatch" and "mismatch" in marks[ppm].text
+    row = doc.by_id("assignment").find_all("tr", data_atoms="C5/C10")[0]
+    assert "mismatch" in row.text
+    assert marks[196.8].attrs["data-status"] == "agree"

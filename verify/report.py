@@ -100,7 +100,7 @@ VERDICT_WORDS: Mapping[str, tuple[str, str]] = {
 
 STATUS_WORDS: Mapping[str, str] = {
     "agree": "assigned, agrees",
-    "mismatch": "assigned, in a fail/review finding",
+    "mismatch": "in a fail finding (\u201cmismatch\u201d) or a review finding (\u201ccheck\u201d)",
     "unassigned": "sample signal no carbon explains",
     "solvent": "solvent",
     "impurity": "recognised impurity",
@@ -245,6 +245,7 @@ class _SignalView:
     classes: tuple[int, ...]
     atoms: str  # "C2/C6 + C9" or ""
     name: str  # solvent or impurity name
+    worst: str = ""  # severest finding ("fail" or "review") the signal is part of
 
 
 def _fmt(value: Any) -> str:
@@ -289,14 +290,18 @@ def _signal_views(verdict: Verdict) -> list[_SignalView]:
         for i in imp.signals:
             impurity_of.setdefault(i, imp.name)
     bad = [f for f in verdict.findings if f.severity in ("fail", "review")]
-    bad_atoms = {a for f in bad for a in f.atoms}
-    bad_peaks = [p for f in bad for p in f.peaks]
     views = []
     for i, s in enumerate(obs.signals):
         classes = tuple(c for c in assigned.get(i, ()) if 0 <= c < len(exp.classes))
         atoms = " + ".join(exp.classes[c].label for c in classes)
         class_atoms = {a for c in classes for a in exp.classes[c].atoms}
         name = ""
+        hits = {
+            f.severity
+            for f in bad
+            if class_atoms & set(f.atoms) or any(abs(s.ppm - p) <= _PEAK_TOL_PPM for p in f.peaks)
+        }
+        worst = "fail" if "fail" in hits else ("review" if hits else "")
         if i in impurity_of or s.role == "impurity":
             status, name = "impurity", impurity_of.get(i) or s.label or "impurity"
         elif s.role == "solvent":
@@ -304,13 +309,13 @@ def _signal_views(verdict: Verdict) -> list[_SignalView]:
             name = s.label or obs.referencing.solvent or "solvent"
         elif s.role == "artifact":
             status, name = "artifact", s.label or "artifact"
-        elif class_atoms & bad_atoms or any(abs(s.ppm - p) <= _PEAK_TOL_PPM for p in bad_peaks):
+        elif worst:
             status = "mismatch"
         elif not classes:
             status = "unassigned"
         else:
             status = "agree"
-        views.append(_SignalView(i, s, status, classes, atoms, name))
+        views.append(_SignalView(i, s, status, classes, atoms, name, worst))
     return views
 
 
@@ -328,8 +333,8 @@ def _mark_for(v: _SignalView) -> Mark:
         text = f"{shown} {word}".strip()
     else:
         text, short = f"{v.atoms} {shown}".strip(), v.atoms
-        if v.status == "mismatch":
-            text += " mismatch"
+        if v.status == "mismatch":  # a fail contradicts; a review asks for a look
+            text += " mismatch" if v.worst == "fail" else " check"
     detail = (
         f"{s.ppm:.2f} ppm · call {call} (confidence {s.confidence:.2f}) · "
         f"{STATUS_WORDS[v.status]}" + (f" · {s.reason}" if s.reason else "")
@@ -517,7 +522,8 @@ def _assignment_rows(verdict: Verdict, views: Sequence[_SignalView]) -> list[dic
                 "impurity": f"shared with {v.name}",
                 "solvent": f"under {v.name}",
                 "artifact": "on an artifact",
-            }.get(v.status, "mismatch")
+                "mismatch": "mismatch" if v.worst == "fail" else "check",
+            }.get(v.status, "unassigned")
             rows.append(
                 {
                     "label": cls.label,
