@@ -773,7 +773,10 @@ def _ring_correction(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> float:
                 o.GetAtomicNum() == 6 and o.GetIdx() in ring for o, _ in _multiple(mol, other)
             ):
                 return 0.0
-    return float(k["ring"].get(str(len(ring)), 0.0))
+    value = float(k["ring"].get(str(len(ring)), 0.0))
+    if any(mol.GetBondBetweenAtoms(x, i) is not None for i in hetero):
+        value *= k["ring_next_to_hetero"]
+    return value
 
 
 def _beyond_unsaturated(mol: Chem.Mol, x: int, group: Chem.Atom, visited: set[int]) -> float:
