@@ -142,3 +142,13 @@ def test_stereo_rules(tmp_path: Path) -> None:
     assert not same and "different stereochemistry" in why
     # a SMILES without stereo is compatible with a file that has it (less specific)
     assert same_compound("CC=CC(=O)OCC", mol)[0]
+
+
+def test_invalid_smiles_beside_a_file(tmp_path: Path) -> None:
+    (tmp_path / "a.dx").write_text("x")
+    (tmp_path / "eth.mol").write_text(MOL_ETHANOL)
+    p = _write(
+        tmp_path, 'structure = "C1CC("\nstructure_file = "eth.mol"\n[spectra]\ncarbon = "a.dx"\n'
+    )
+    with pytest.raises(SampleError, match=r"'C1CC\(' is not a valid SMILES.*s\.toml"):
+        load_sample(p)

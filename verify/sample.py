@@ -51,10 +51,13 @@ def _inchi(structure: str | Path) -> tuple[str, str]:
         with _quiet_rdkit():
             mol = Chem.MolFromSmiles(structure)
         if mol is None:
-            raise SampleError(f"structure {structure!r} is not a valid SMILES")
+            raise SampleError(
+                f"structure {structure!r} is not a valid SMILES; check brackets, ring"
+                " closures and atom symbols"
+            )
     with _quiet_rdkit():
-        inchi = Chem.MolToInchi(mol)
-        key = Chem.InchiToInchiKey(inchi) if inchi else ""
+        inchi = Chem.MolToInchi(mol)  # type: ignore[no-untyped-call]  # RDKit stubs
+        key = Chem.InchiToInchiKey(inchi) if inchi else ""  # type: ignore[no-untyped-call]
     return inchi or "", key or ""
 
 
@@ -62,12 +65,12 @@ class _quiet_rdkit:
     def __enter__(self) -> None:
         from rdkit import RDLogger
 
-        RDLogger.DisableLog("rdApp.*")
+        RDLogger.DisableLog("rdApp.*")  # type: ignore[attr-defined]  # RDKit stubs
 
     def __exit__(self, *exc: object) -> None:
         from rdkit import RDLogger
 
-        RDLogger.EnableLog("rdApp.*")
+        RDLogger.EnableLog("rdApp.*")  # type: ignore[attr-defined]  # RDKit stubs
 
 
 def _has_stereo(inchi: str) -> bool:
@@ -198,7 +201,10 @@ def load_sample(path: str | os.PathLike[str]) -> Sample:
             )
         spectra[role] = target
     if smiles and structure_file is not None:
-        same, why = same_compound(smiles, structure_file)
+        try:
+            same, why = same_compound(smiles, structure_file)
+        except SampleError as exc:
+            raise SampleError(exc.detail, path=p) from None
         if not same:
             raise SampleError(
                 f"structure and structure_file are not the same compound: {why}; keep one"
