@@ -15,7 +15,8 @@ from verify.errors import CtallyError, CtallyWarning
 from verify.model import MULTIPLICITIES, Observation
 
 
-def _protium(atom: Chem.Atom) -> int:
+def protium(atom: Chem.Atom) -> int:
+    """Attached protium (deuterium not counted)."""
     explicit = sum(1 for n in atom.GetNeighbors() if n.GetAtomicNum() == 1 and n.GetIsotope() != 2)
     return atom.GetTotalNumHs() + explicit
 
@@ -37,7 +38,7 @@ def observe_by_spectra(
 
     groups: dict[tuple[float, str], int] = collections.Counter()
     for atom, ppm in shifts.items():
-        mult = MULTIPLICITIES[min(3, _protium(mol.GetAtomWithIdx(atom)))]
+        mult = MULTIPLICITIES[min(3, protium(mol.GetAtomWithIdx(atom)))]
         groups[(ppm, mult)] += 1
     carbons = [SyntheticCarbon(ppm=p, multiplicity=m, carbons=n) for (p, m), n in groups.items()]
     with warnings.catch_warnings():

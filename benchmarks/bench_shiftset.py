@@ -45,6 +45,9 @@ from pathlib import Path
 from rdkit import Chem, RDLogger
 from rdkit.Chem.rdMolDescriptors import CalcMolFormula
 
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from _bench_spectra import protium  # noqa: E402
+
 from verify.errors import CtallyError, CtallyWarning
 from verify.model import HYDROGENS, MULTIPLICITIES, Expectation, Observation, Referencing, Signal
 from verify.structure import expected_inventory
@@ -98,11 +101,6 @@ def read_records(limit: int | None) -> tuple[list[Record], collections.Counter[s
             if limit and len(out) >= limit:
                 break
     return out, skipped
-
-
-def protium(atom: Chem.Atom) -> int:
-    explicit = sum(1 for n in atom.GetNeighbors() if n.GetAtomicNum() == 1 and n.GetIsotope() != 2)
-    return atom.GetTotalNumHs() + explicit if explicit else atom.GetTotalNumHs()
 
 
 def relative_heights(merged: list[list], heights: list[float]) -> list[int]:
@@ -304,11 +302,8 @@ def run_spectra(
     except ImportError as exc:
         print(f"\n== spectra: skipped ({exc}) ==")
         return
-    try:
-        from _bench_spectra import observe_by_spectra  # type: ignore[import-not-found]
-    except ImportError:
-        sys.path.insert(0, str(Path(__file__).parent))
-        from _bench_spectra import observe_by_spectra  # type: ignore[import-not-found]
+    from _bench_spectra import observe_by_spectra
+
     counts: collections.Counter[str] = collections.Counter()
     decoy = {"differs": collections.Counter(), "same": collections.Counter()}
     by_formula: dict[str, list[int]] = collections.defaultdict(list)
