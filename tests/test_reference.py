@@ -237,3 +237,12 @@ def test_apt_file_axis_aligned_on_the_carbon():
     out, ref = reference_sample({"carbon": carbon, "apt": apt}, "CDCl3")
     assert ref.offset_ppm == pytest.approx(-0.2, abs=0.02)
     assert out["apt"].provenance["referencing"]["alignment_ppm"] == pytest.approx(0.12, abs=0.01)
+
+
+def test_three_sample_lines_are_not_taken_for_another_solvent():
+    # stated CDCl3 absent; three unequal aromatic lines ~24 Hz apart near 128 ppm
+    # must not be read as the C6D6 triplet (1:1:1, Fulmer 2010; J ~24.5 Hz from memory)
+    d = 24.0 / MHZ
+    s = spectrum([(128.3 - d, 100.0), (128.3, 160.0), (128.3 + d, 120.0), (21.0, 120.0)])
+    _, ref = reference_sample({"carbon": s}, "CDCl3")
+    assert ref.method == "file" and ref.solvent == "CDCl3"

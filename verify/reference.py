@@ -347,7 +347,9 @@ def _other_solvent(spec: Spectrum, stated: str | None, tol: float) -> Referencin
             if not sig.primary or sig.deuterium == 0:
                 continue
             found = find_solvent(spec, sig, tol)
-            if found is not None and found[3] < 0.25 and len(found[1]) >= 3:
+            # a 1:1:1 triplet is easily mimicked by three sample lines: stricter fit
+            limit = 0.1 if len(sig.pattern) == 3 else 0.25
+            if found is not None and found[3] < limit and len(found[1]) >= 3:
                 hits.append((other, sig, found))
     if len(hits) != 1:
         return None
