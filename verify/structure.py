@@ -67,6 +67,7 @@ import os
 import random
 import tomllib
 import warnings
+from collections import Counter
 from collections.abc import Iterable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import replace
@@ -293,6 +294,15 @@ def load_structure(structure: str | os.PathLike[str] | Chem.Mol) -> Chem.Mol:
             f"got {type(structure).__name__}"
         )
     mol = _strip_protium(mol)
+    for atom in mol.GetAtoms():
+        # square-planar/trigonal-bipyramidal/octahedral tags on main-group atoms come from
+        # odd molfiles and mean nothing there: drop them
+        if atom.GetChiralTag() not in (
+            Chem.ChiralType.CHI_UNSPECIFIED,
+            _CW,
+            _CCW,
+        ) and atom.GetAtomicNum() in (5, 6, 7, 8, 14, 15, 16, 33, 34):
+            atom.SetChiralTag(Chem.ChiralType.CHI_UNSPECIFIED)
     if not any(a.GetAtomicNum() == 6 for a in mol.GetAtoms()):
         raise StructureError(
             f"the structure {Chem.MolToSmiles(mol)!r} has no carbon atom: nothing to check "
@@ -383,7 +393,8 @@ def _exchange_normalise(mol: Chem.Mol) -> tuple[Chem.Mol, set[int]]:
         touched.add(c)
     out = rw.GetMol()
     try:
-        Chem.SanitizeMol(out)
+        with _captured_log():
+            Chem.SanitizeMol(out)
     except Exception:  # an exotic case the rules do not fit: keep the drawing as given
         return Chem.Mol(mol), set()
     return out, touched
@@ -484,7 +495,9 @@ def _amide_sites(mol: Chem.Mol, skip_bonds: set[int]) -> list[tuple[int, int, in
             sites.append((x, c, n))
     for n, _c1, _c2, n2, o in mol.GetSubstructMatches(_PATTERNS["nitrosamine"]):
         sites.append((o, n2, n))
-    return sites
+    # an imide N (two acyl groups) shares its lone pair: no single slow C-N rotor
+    per_n = Counter(n for _x, _c, n in sites)
+    return [site for site in sites if per_n[site[2]] == 1]
 
 
 def _zwitterion(form: Chem.Mol, sites: Iterable[tuple[int, int, int]]) -> Chem.Mol:
@@ -583,7 +596,8 @@ class _Analysis:
         for form in forms:
             if amides:
                 try:
-                    form = _zwitterion(form, amides)
+                    with _captured_log():
+                        form = _zwitterion(form, amides)
                 except Exception:  # cannot draw the zwitterion: use the plain form
                     pass
             ready.append(_tagged(form, skip, flip))
