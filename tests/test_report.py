@@ -627,3 +627,14 @@ def test_signal_of_a_fail_finding_says_mismatch() -> None:
     row = doc.by_id("assignment").find_all("tr", data_atoms="C5/C10")[0]
     assert "mismatch" in row.text
     assert marks[196.8].attrs["data-status"] == "agree"
+
+
+def test_summary_sentence_counts_classes_and_signals() -> None:
+    doc = parse(render_html(make_verdict()))
+    assert doc.by_id("summary").text == (
+        "7 of 7 expected carbon classes matched to 7 of 7 sample signals."
+    )
+    v = make_verdict(impurity={"ethyl acetate": 60.49}, impurity_as_sample=True)
+    text = parse(render_html(v)).by_id("summary").text
+    assert text.startswith("7 of 7 expected carbon classes matched to 7 of 7 sample signals")
+    assert "impurities: ethyl acetate" in text

@@ -400,6 +400,23 @@ def _other_rows(groups: Sequence[Sequence[_SignalView]], loose: set[int]) -> lis
     return rows
 
 
+def _summary(verdict: Verdict, views: Sequence[_SignalView]) -> str:
+    """One sentence of counts: classes assigned, sample signals, unexplained ones."""
+    n_classes = len(verdict.expectation.classes)
+    assigned = {c for a in verdict.assignment for c in a.classes}
+    own = [v for v in views if v.signal.role == "sample" and v.status != "impurity"]
+    loose = sum(1 for v in own if not v.classes)
+    text = (
+        f"{len(assigned)} of {n_classes} expected carbon classes matched to "
+        f"{sum(1 for v in own if v.classes)} of {len(own)} sample signals"
+    )
+    if loose:
+        text += f"; {loose} sample signal{'s' if loose > 1 else ''} left unexplained"
+    if verdict.impurities:
+        text += f"; impurities: {', '.join(i.name for i in verdict.impurities)}"
+    return text + "."
+
+
 def _traces(verdict: Verdict) -> list[tuple[str, Spectrum | Sticks]]:
     """Per experiment, its spectrum, or its peaks as sticks when only a list was given."""
     out: list[tuple[str, Spectrum | Sticks]] = []
@@ -727,6 +744,7 @@ def render_html(
         "solvent": (sample.solvent if sample is not None else None) or obs.referencing.solvent,
         "verdict": verdict,
         "words": VERDICT_WORDS[verdict.verdict],
+        "summary": _summary(verdict, views),
         "caution": CAUTION,
         "exp": exp,
         "obs": obs,
