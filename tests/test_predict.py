@@ -17,10 +17,12 @@ import time
 from dataclasses import replace
 from pathlib import Path
 
+import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from rdkit import Chem
+from scipy.optimize import linear_sum_assignment
 
 from verify.errors import StructureError
 from verify.model import CarbonClass, Expectation
@@ -113,6 +115,40 @@ def test_regioisomers_are_told_apart() -> None:
     assert para[6][0] - ortho[8][0] > 2.0
     assert abs(para[6][0] - 20.5) <= 2 * para[6][1]
     assert abs(ortho[8][0] - 16.3) <= 2 * ortho[8][1]
+
+
+# Observed shifts by multiplicity [H], from memory: 3-methylanisole C1 159.7, C3 139.5,
+# CH 129.2/121.5/114.8/110.8, OCH3 55.1, CH3 21.5; 2-methylanisole C1 157.7, C2 126.7,
+# CH 130.6/126.8/120.3/109.9, OCH3 55.2, CH3 16.2.  Same CHn inventory, same signal count.
+_METHYLANISOLES = {
+    "COc1cccc(C)c1": {"C": [159.7, 139.5], "CH": [129.2, 121.5, 114.8, 110.8], "CH3": [55.1, 21.5]},
+    "COc1ccccc1C": {"C": [157.7, 126.7], "CH": [130.6, 126.8, 120.3, 109.9], "CH3": [55.2, 16.2]},
+}
+
+
+def _misfit(smiles: str, observed: dict[str, list[float]]) -> float:
+    """Sum of squared z-scores of the best one-to-one assignment within each multiplicity."""
+    mol = Chem.MolFromSmiles(smiles)
+    pred = predict_atom_shifts(mol)
+    total = 0.0
+    for mult, values in observed.items():
+        nh = {"C": 0, "CH": 1, "CH2": 2, "CH3": 3}[mult]
+        atoms = [i for i in pred if mol.GetAtomWithIdx(i).GetTotalNumHs() == nh]
+        cost = np.array([[((v - pred[a][0]) / pred[a][1]) ** 2 for a in atoms] for v in values])
+        rows, cols = linear_sum_assignment(cost)
+        total += float(cost[rows, cols].sum())
+    return total
+
+
+@pytest.mark.parametrize("true_smiles", sorted(_METHYLANISOLES))
+def test_regioisomer_with_the_same_inventory_fits_worse(true_smiles: str) -> None:
+    # the predicted shifts must fit the true isomer's spectrum clearly better than the
+    # other isomer's (scipy's linear_sum_assignment as the matcher)
+    observed = _METHYLANISOLES[true_smiles]
+    (decoy,) = (s for s in _METHYLANISOLES if s != true_smiles)
+    right, wrong = _misfit(true_smiles, observed), _misfit(decoy, observed)
+    assert right < 8.0  # about one z^2 per signal at most
+    assert wrong > 3 * right + 10.0
 
 
 def test_homologous_esters_are_told_apart() -> None:
