@@ -364,6 +364,14 @@ def test_lactam_not_a_rotamer_and_diethylamide_split() -> None:
     assert deaa.signals() == {"C": 1, "CH": 0, "CH2": 2, "CH3": 3}
 
 
+def test_imide_is_not_a_rotamer_site(capfd: pytest.CaptureFixture[str]) -> None:
+    # Common practice: N-methylphthalimide shows 5 carbon signals (C=O pair equivalent).
+    exp = expected_inventory("CN1C(=O)c2ccccc2C1=O")
+    assert len(exp.classes) == 5
+    assert not any("amide-rotation" in c.flags for c in exp.classes)
+    assert capfd.readouterr().err == ""  # no stray RDKit messages
+
+
 # ------------------------------------------------------------- panthenol
 
 
