@@ -136,16 +136,73 @@ def evaluate(records: list[Record]) -> dict[str, np.ndarray]:
 
 
 def summary(arr: np.ndarray) -> dict[str, float]:
-    """MAE, RMSE, P95 (ppm) and fractions within 1 and 2 SD."""
+    """MAE, median, RMSE, P95 (ppm), fractions within 1 and 2 SD and beyond 4 SD."""
     err, sd = np.abs(arr[:, 0]), arr[:, 1]
     return {
         "n": float(len(err)),
         "mae": float(err.mean()),
+        "median": float(np.median(err)),
         "rmse": float(np.sqrt((err**2).mean())),
         "p95": float(np.percentile(err, 95)),
         "within1": float((err <= sd).mean()),
         "within2": float((err <= 2 * sd).mean()),
+        "beyond4": float((err > 4 * sd).mean()),
     }
+
+
+def _inventory(mol: Chem.Mol, atoms: list[int]) -> dict[int, list[int]]:
+    out: dict[int, list[int]] = {}
+    for i in atoms:
+        out.setdefault(mol.GetAtomWithIdx(i).GetTotalNumHs(), []).append(i)
+    return out
+
+
+def misfit(observed: dict[int, list[float]], mol: Chem.Mol) -> float:
+    """Mean squared z-score of the best assignment of observed shifts, per H count."""
+    from scipy.optimize import linear_sum_assignment
+
+    pred = predict_atom_shifts(mol)
+    groups = _inventory(mol, list(pred))
+    total, count = 0.0, 0
+    for nh, values in observed.items():
+        atoms = groups.get(nh, [])
+        if len(atoms) < len(values):
+            return float("inf")
+        cost = np.array([[((v - pred[a][0]) / pred[a][1]) ** 2 for a in atoms] for v in values])
+        rows, cols = linear_sum_assignment(cost)
+        total += float(cost[rows, cols].sum())
+        count += len(values)
+    return total / max(count, 1)
+
+
+def isomer_test(records: list[Record]) -> tuple[int, int]:
+    """Same-formula, same-CHn-inventory pairs: (pairs, pairs where the true one fits better).
+
+    Only molecules with every carbon assigned are used; each molecule's observed shifts are
+    matched against its own predictions and against each decoy's.
+    """
+    from rdkit.Chem import rdMolDescriptors
+
+    full = []
+    for rec in records:
+        carbons = [a.GetIdx() for a in rec.mol.GetAtoms() if a.GetAtomicNum() == 6]
+        if set(carbons) != set(rec.shifts):
+            continue
+        groups = _inventory(rec.mol, carbons)
+        observed = {nh: [rec.shifts[i] for i in atoms] for nh, atoms in groups.items()}
+        key = (
+            rdMolDescriptors.CalcMolFormula(rec.mol),
+            tuple(sorted((nh, len(v)) for nh, v in groups.items())),
+        )
+        full.append((key, observed, rec.mol))
+    pairs = wins = 0
+    for key, observed, mol in full:
+        own = misfit(observed, mol)
+        for other_key, _, other in full:
+            if other_key == key and other is not mol:
+                pairs += 1
+                wins += own < misfit(observed, other)
+    return pairs, wins
 
 
 def main() -> None:
@@ -173,6 +230,13 @@ def main() -> None:
             f"{s['within1']:6.1%} {s['within2']:6.1%}"
         )
     print(f"time: {1000 * elapsed / max(len(records), 1):.2f} ms per molecule")
+    s = summary(result["all"])
+    print(f"median |error| {s['median']:.2f} ppm; beyond 4 SD: {s['beyond4']:.1%}")
+    pairs, wins = isomer_test(records)
+    print(
+        f"same-formula, same-CHn isomer pairs: {pairs}; true structure fits better in "
+        f"{wins} ({wins / max(pairs, 1):.1%})"
+    )
     if args.worst:
         worst = []
         for rec in records:
