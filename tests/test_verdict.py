@@ -405,3 +405,13 @@ def test_measured_coumarin_ranks_above_same_inventory_chromone(spectra_dir: Path
     assert best.expectation.structure == expect_predicted(smiles).structure
     assert best.score > other.score
     assert "favour" in compare_text([best, other])
+
+
+def test_minor_signal_can_hold_a_weak_carbon_for_review() -> None:
+    # Constructed case: the OCH2 line was seen in DEPT only and set aside as a minor
+    # component (DEPT is the more sensitive experiment, common practice).
+    minor = Signal(ppm=60.49, multiplicity="CH2", confidence=0.9, role="impurity", snr=8.0)
+    peaks = [p for p in ETOAC if p[1] != "CH2"]
+    v = judge(expect_predicted("CCOC(C)=O"), observe(peaks, extra=[minor]))
+    assert v.verdict == "review", format_verdict(v)
+    assert "minor-signal-assigned" in codes(v)

@@ -57,6 +57,11 @@ class VerdictConfig:
     weak_snr : float
         Signals with SNR below this cost less when unassigned (in proportion, at least a
         quarter): weak peaks are more often impurities or artefacts.
+    minor_signal_cost : float
+        Extra cost of a class on a signal the classifier set aside as a minor component
+        (seen in an edited spectrum but not in the carbon spectrum): DEPT is more
+        sensitive than the broadband spectrum, so a weak sample CH may be such a signal,
+        but a sample signal is preferred.
     overlap_cost : float
         Cost of each extra class on one signal without evidence for an overlap.
     supported_overlap_cost : float
@@ -138,6 +143,7 @@ class VerdictConfig:
     missing_quaternary_cost: float = 5.0
     unassigned_cost: float = 4.0
     weak_snr: float = 10.0
+    minor_signal_cost: float = 1.5
     overlap_cost: float = 2.5
     supported_overlap_cost: float = 1.0
     overlap_prediction_ppm: float = 2.0

@@ -292,7 +292,9 @@ def assign(
     expectation : Expectation
         The proposed structure's classes (shift ranges, predictions in ppm).
     observation : Observation
-        The classified signals; only those with role ``"sample"`` take part.
+        The classified signals; those with role ``"sample"`` take part, and those with
+        role ``"impurity"`` (minor signals) at ``minor_signal_cost`` extra and without
+        any cost when left over.
     config : VerdictConfig, optional
         Costs; defaults as documented there.
     exclude : collection of int, optional
@@ -319,7 +321,9 @@ def assign(
     classes = expectation.classes
     sigs = observation.signals
     skip = set(exclude)
-    sample = [j for j, s in enumerate(sigs) if s.role == "sample" and j not in skip]
+    # Sample signals, and minor ones the classifier set aside as a possible impurity (seen
+    # in an edited spectrum only): a weak protonated carbon may be one of them.
+    sample = [j for j, s in enumerate(sigs) if s.role in ("sample", "impurity") and j not in skip]
     if not classes or not sample:
         return ()
 
@@ -329,7 +333,9 @@ def assign(
         mk = _missing_cost(cls, cfg)
         for j in sample:
             c = pair_cost(cls, sigs[j], cfg)
-            if c < mk + _unassigned_cost(sigs[j], cfg):
+            if sigs[j].role == "impurity":
+                c += cfg.minor_signal_cost
+            if c < mk + (_unassigned_cost(sigs[j], cfg) if sigs[j].role == "sample" else 0.0):
                 pairs.append((k, j, c))
     if not pairs:
         return ()
@@ -373,7 +379,8 @@ def assign(
     for p, (k, _j, c) in enumerate(pairs):
         obj[p] = c - _missing_cost(classes[k], cfg)
     for j in sample:
-        obj[y0 + col_of[j]] = -_unassigned_cost(sigs[j], cfg)
+        if sigs[j].role == "sample":  # leaving a minor signal unassigned costs nothing
+            obj[y0 + col_of[j]] = -_unassigned_cost(sigs[j], cfg)
         obj[o0 + col_of[j]] = cfg.supported_overlap_cost
         obj[p0 + col_of[j]] = (cfg.overlap_cost - cfg.supported_overlap_cost) / _EXCESS_UNIT
     for q, _ in enumerate(zs):

@@ -40,6 +40,7 @@ coincident-pair          info     a diastereotopic/rotamer pair appears as one s
 split-class              review   a class of symmetry-equivalent carbons takes two close
                                   signals (hindered rotation, diastereotopic groups)
 low-confidence           review   assigned multiplicity calls below the confidence threshold
+minor-signal-assigned    review   a carbon takes a signal the classifier set aside as minor
 no-dept90                review   CH and CH3 told apart from shift alone (no DEPT-90)
 carbon-only              review   no edited spectrum: multiplicities unknown
 low-snr                  review   median sample SNR below the threshold
@@ -335,6 +336,16 @@ def judge(
                 )
         if s.multiplicity is not None and s.confidence < cfg.low_confidence:
             low_conf.append(a.signal)
+        if s.role == "impurity":
+            fx.add(
+                "minor-signal-assigned",
+                "review",
+                f"{_join([classes[k].label for k in a.classes])} is assigned to the weak signal "
+                f"at {_ppm(s.ppm)}, which the classifier took for a minor component "
+                f"({s.reason or 'not in the carbon spectrum'}); confirm it belongs to the sample.",
+                [x for k in a.classes for x in classes[k].atoms],
+                (s.ppm,),
+            )
         kind = overlap_kind(exp, s, a.classes, cfg)
         labels = _join([classes[k].label for k in a.classes])
         atoms = [x for k in a.classes for x in classes[k].atoms]
