@@ -62,7 +62,9 @@ from verify.model import MULTIPLICITIES, Sample, Signal, Spectrum, Verdict
 __all__ = [
     "CAUTION",
     "build_audit",
+    "chromium_command",
     "file_sha256",
+    "find_browser",
     "render_html",
     "template_dir",
     "html_to_pdf",
