@@ -65,9 +65,9 @@ __all__ = [
     "chromium_command",
     "file_sha256",
     "find_browser",
+    "html_to_pdf",
     "render_html",
     "template_dir",
-    "html_to_pdf",
     "write_html",
     "write_pdf",
 ]
