@@ -866,3 +866,18 @@ def test_property_integer_fid_round_trip(re_part: list[int], form: str) -> None:
         write_jcamp(fid, Path(d) / "f.dx", form=form)
         back = read_jcamp(Path(d) / "f.dx")
     np.testing.assert_array_equal(back.data, data)
+
+
+@pytest.mark.shared
+def test_processed_only_folder_and_1r_file(tmp_path: Path) -> None:
+    import shutil
+
+    src = _shared("arborinine-raw/11")
+    exp = tmp_path / "11"
+    (exp / "pdata").mkdir(parents=True)
+    shutil.copy(src / "acqus", exp / "acqus")
+    shutil.copytree(src / "pdata" / "1", exp / "pdata" / "1")
+    spec = read_any(exp, role="carbon")  # no fid: the processed spectrum is read
+    assert isinstance(spec, Spectrum) and spec.points == 32768
+    assert sniff(exp / "pdata" / "1" / "1r") == ("pdata", exp / "pdata" / "1")
+    assert isinstance(read_any(exp / "pdata" / "1" / "1r"), Spectrum)

@@ -3,7 +3,8 @@
 :func:`read_any` looks at what a path holds, not at its name:
 
 * a folder with ``acqus`` and ``fid`` (or a file inside one) → raw FID
-  (:func:`~verify.readers.rawdir.read_rawdir`); a ``pdata/N`` folder → its processed
+  (:func:`~verify.readers.rawdir.read_rawdir`); a ``pdata/N`` folder (or its ``1r``),
+  or an experiment folder without ``fid`` but with ``pdata/1/1r`` → the processed
   spectrum; a folder holding exactly one such experiment folder → that one;
 * text whose first record is ``##TITLE=`` or ``##JCAMP-DX=`` → JCAMP-DX
   (:func:`~verify.readers.jcamp.read_jcamp`);
@@ -58,8 +59,10 @@ def sniff(path: str | os.PathLike[str]) -> tuple[str, Path]:
     if p.is_dir():
         if is_rawdir(p):
             return "rawdir", p
-        if (p / "1r").is_file() and is_rawdir(p.parent.parent):
+        if (p / "1r").is_file() and p.name.isdigit() and (p.parent.parent / "acqus").is_file():
             return "pdata", p
+        if (p / "acqus").is_file() and (p / "pdata" / "1" / "1r").is_file():
+            return "pdata", p / "pdata" / "1"  # processed data only, no fid
         inner = sorted(q for q in p.iterdir() if is_rawdir(q))
         if len(inner) == 1:
             return "rawdir", inner[0]
@@ -71,6 +74,12 @@ def sniff(path: str | os.PathLike[str]) -> tuple[str, Path]:
         raise InputFileError("the folder is not a raw-data folder (no acqus beside a fid)", path=p)
     if p.name in ("fid", "acqus", "acqu") and is_rawdir(p.parent):
         return "rawdir", p.parent
+    if (
+        p.name in ("1r", "procs", "proc")
+        and p.parent.name.isdigit()
+        and (p.parent.parent.parent / "acqus").is_file()
+    ):
+        return "pdata", p.parent
     try:
         with p.open("rb") as fh:
             head = fh.read(8192)
