@@ -246,3 +246,12 @@ def test_three_sample_lines_are_not_taken_for_another_solvent():
     s = spectrum([(128.3 - d, 100.0), (128.3, 160.0), (128.3 + d, 120.0), (21.0, 120.0)])
     _, ref = reference_sample({"carbon": s}, "CDCl3")
     assert ref.method == "file" and ref.solvent == "CDCl3"
+
+
+@pytest.mark.parametrize("on_line", [0, 1, -1])
+def test_triplet_with_a_sample_line_on_one_of_its_lines(on_line):
+    # a sample carbon exactly under one CDCl3 line (C–O carbons often sit at ~77 ppm)
+    pos = 77.16 + on_line * 32.0 / MHZ
+    s = spectrum(SAMPLE + cdcl3(height=60.0) + [(pos, 600.0)], shift=-0.3)
+    _, ref = reference_sample({"carbon": s}, "CDCl3")
+    assert ref.method == "solvent" and ref.offset_ppm == pytest.approx(0.3, abs=0.02)

@@ -219,6 +219,26 @@ def _local_apex(arr: FloatArray, centre: float, half: int) -> tuple[int, float]:
     return i, pos
 
 
+def _fit_with_one_overlapped(
+    h: FloatArray, pattern: tuple[float, ...]
+) -> tuple[float, npt.NDArray[np.bool_]]:
+    """Misfit (+0.1 penalty) when one line, taller than predicted, is left out."""
+    p = np.asarray(pattern, dtype=np.float64)
+    best = (math.inf, np.ones(h.size, dtype=bool))
+    for k in range(h.size):
+        keep = np.ones(h.size, dtype=bool)
+        keep[k] = False
+        if keep.sum() < 2:
+            continue
+        scale = float(h[keep] @ p[keep] / (p[keep] @ p[keep]))
+        if scale <= 0 or h[k] < 1.3 * scale * p[k]:
+            continue  # an overlapped line can only be taller
+        rest = pattern_fit(h[keep], tuple(p[keep]))
+        if rest < 0.15 and rest + 0.1 < best[0]:
+            best = (rest + 0.1, keep)
+    return best
+
+
 def find_multiplet(
     ppm: FloatArray,
     y: FloatArray,
@@ -232,6 +252,7 @@ def find_multiplet(
     j_tol: float = 0.25,
     max_misfit: float = 0.35,
     min_snr: float = 6.0,
+    overlap_ppm: float = 0.0,
 ) -> MultipletMatch | None:
     """Best first-order multiplet of the given pattern centred within a window.
 
@@ -263,6 +284,10 @@ def find_multiplet(
         Largest accepted height misfit (see :func:`pattern_fit`).
     min_snr : float
         Lines must exceed this many noise SDs.
+    overlap_ppm : float
+        When > 0, one line may be taller than the pattern says (a sample line on
+        top of it) if the others fit it closely; such a match is accepted only
+        within this distance (ppm) of ``centre_ppm`` and ranks below clean ones.
 
     Returns
     -------
@@ -335,14 +360,24 @@ def find_multiplet(
                 if not ok or scale <= 0:
                     continue
                 misfit = pattern_fit(h, pattern)
+                keep = np.ones(n_lines, dtype=bool)
+                if misfit > max_misfit and overlap_ppm > 0:
+                    misfit, keep = _fit_with_one_overlapped(h, pattern)
                 if misfit > max_misfit:
                     continue
                 lines_ppm = tuple(float(ppm[0] + p * step) for p in poss)
-                spacing = np.diff(np.array(poss)) / pts_per_hz
+                ks = np.flatnonzero(keep)
+                kept = np.array(poss)[ks]
+                spacing = np.diff(kept) / np.diff(ks) / pts_per_hz
                 j_fit = float(np.mean(np.abs(spacing)))
                 if np.any(np.abs(np.abs(spacing) - j_fit) > max(0.15 * j_fit, 1.0)):
                     continue
-                centre = float(np.average(lines_ppm, weights=pattern))
+                # centre from the unobstructed lines: each says where the centre is
+                jp_fit = float(np.mean(spacing)) * pts_per_hz
+                centre_pt = float(np.mean(kept - (ks - centre_k) * jp_fit))
+                centre = float(ppm[0] + centre_pt * step)
+                if not keep.all() and abs(centre - centre_ppm) > overlap_ppm:
+                    continue
                 cand = MultipletMatch(
                     centre,
                     lines_ppm,

@@ -49,6 +49,9 @@ _SOLVENT_VISIBLE = ("carbon", "apt")
 #: Largest shift (ppm) between an edited spectrum's file axis and the carbon's that is
 #: looked for, and the agreement (ppm) that counts two peaks as the same carbon.
 _ALIGN_MATCH_PPM = 0.03
+#: A solvent multiplet with one line buried under a sample line is accepted only this
+#: close (ppm) to its published shift: the weaker evidence needs the stronger prior.
+_OVERLAP_PPM = 0.5
 
 
 @dataclass(frozen=True)
@@ -206,6 +209,7 @@ def find_solvent(
         window_ppm,
         signal.j_hz,
         signal.pattern,
+        overlap_ppm=_OVERLAP_PPM,
     )
     if match is None:
         return None
