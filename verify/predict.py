@@ -836,7 +836,7 @@ def _steric(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> float:
 
 def _hetero_double(
     mol: Chem.Mol, atom: Chem.Atom, rings: _Rings, mult: list[tuple[Chem.Atom, Any]]
-) -> _Prediction:
+) -> _Prediction | None:
     c = _tables()["carbonyl"]
     sd = _tables()["sd"]
     x = atom.GetIdx()
@@ -852,6 +852,10 @@ def _hetero_double(
         }.get((kinds[0], kinds[1]), c["isocyanate"])
         return _Prediction(value, sd["carbonyl_rough"], "cumulene")
     dz = doubles[0].GetAtomicNum()
+    if dz == 15:  # phosphorus ylide carbon
+        return _Prediction(c["ylide"], sd["carbonyl_rough"], "ylide")
+    if dz not in (7, 8, 16):
+        return None
     rest = _heavy(atom, doubles[0].GetIdx())
     kinds = [r.GetAtomicNum() for r in rest]
     n_o, n_n, n_s = kinds.count(8), kinds.count(7), kinds.count(16)
@@ -875,12 +879,13 @@ def _hetero_double(
             value = c["guanidine"]
         elif n_total == 2 or n_o or n_s:
             value = c["amidine"]
-        elif any(s.GetAtomicNum() == 8 for s in _heavy(imine_n, x)):
-            value = c["oxime"]
-        elif any(s.GetAtomicNum() == 7 for s in _heavy(imine_n, x)):
-            value = c["hydrazone"]
         else:
-            value = c["imine"]
+            kind = "imine"
+            if any(s.GetAtomicNum() == 8 for s in _heavy(imine_n, x)):
+                kind = "oxime"
+            elif any(s.GetAtomicNum() == 7 for s in _heavy(imine_n, x)):
+                kind = "hydrazone"
+            value = c[kind + ("_ketone" if len(rest) >= 2 else "_aldehyde")]
         return _Prediction(value, sd["c_n_double"], "c=n")
     if halo and dz == 8 and not (n_o or n_n):
         value = c["acid_chloride"]
