@@ -231,6 +231,9 @@ def _carbon_group(
     if atom.GetIsAromatic():
         info = mol.GetRingInfo()
         if info.IsAtomInRingOfSize(idx, 5) and not info.IsAtomInRingOfSize(idx, 6):
+            ring = next((r for r in info.AtomRings() if idx in r and len(r) == 5), ())
+            if any(_ring_letter(mol.GetAtomWithIdx(i), ring) == "n" for i in ring):
+                return ("azolyl", "aryl5", "aryl")
             return ("aryl5", "aryl")
         return ("aryl",)
     mult = _multiple(mol, atom, frm)
