@@ -265,12 +265,12 @@ class PeakSet:
 
     def __post_init__(self) -> None:
         if self.experiment not in EXPERIMENTS:
-            raise ValueError(f"unknown experiment {self.experiment!r}; expected one of {EXPERIMENTS}")
+            raise ValueError(
+                f"unknown experiment {self.experiment!r}; expected one of {EXPERIMENTS}"
+            )
         if not self.noise >= 0:
             raise ValueError("noise must be non-negative")
-        object.__setattr__(
-            self, "peaks", tuple(sorted(self.peaks, key=lambda p: -p.ppm))
-        )
+        object.__setattr__(self, "peaks", tuple(sorted(self.peaks, key=lambda p: -p.ppm)))
 
 
 @dataclass(frozen=True)
@@ -413,7 +413,7 @@ class Observation:
 
     def signal_counts(self) -> dict[str, int]:
         """Sample-signal count per multiplicity (unknown calls are not counted)."""
-        counts = {m: 0 for m in MULTIPLICITIES}
+        counts = dict.fromkeys(MULTIPLICITIES, 0)
         for s in self.sample_signals:
             if s.multiplicity is not None:
                 counts[s.multiplicity] += 1
@@ -541,14 +541,14 @@ class Expectation:
 
     def inventory(self) -> dict[str, int]:
         """Carbons per multiplicity."""
-        counts = {m: 0 for m in MULTIPLICITIES}
+        counts = dict.fromkeys(MULTIPLICITIES, 0)
         for c in self.classes:
             counts[c.multiplicity] += c.carbons
         return counts
 
     def signals(self) -> dict[str, int]:
-        """Expected distinct peaks per multiplicity (one per class)."""
-        counts = {m: 0 for m in MULTIPLICITIES}
+        """Count the expected distinct peaks per multiplicity (one per class)."""
+        counts = dict.fromkeys(MULTIPLICITIES, 0)
         for c in self.classes:
             counts[c.multiplicity] += 1
         return counts

@@ -7,15 +7,12 @@ files only through :mod:`verify.readers` and never writes any.
 
 from __future__ import annotations
 
-import datetime as _dt
 import os
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from verify import __version__
-from verify._files import sha256_path
 from verify.errors import InputFileError, StructureError, UsageError
 from verify.model import EXPERIMENTS, Expectation, Observation, PeakSet, Sample, Spectrum, Verdict
 
@@ -210,7 +207,7 @@ def observe(
 def load_candidates(
     sample: Sample | None, structures: Sequence[str] = (), candidates_file: str | None = None
 ) -> list[Expectation]:
-    """Expected inventories of the proposed structure and any further candidates.
+    """Build the expected inventories of the proposed structure and further candidates.
 
     Parameters
     ----------
@@ -241,7 +238,9 @@ def load_candidates(
     if candidates_file is not None:
         out.extend(_read_candidates_file(Path(candidates_file)))
     if not out:
-        raise UsageError("no structure given: set `structure` in the sample file or pass --structure")
+        raise UsageError(
+            "no structure given: set `structure` in the sample file or pass --structure"
+        )
     return [predict_shifts(e) for e in out]
 
 
@@ -279,29 +278,18 @@ def _read_candidates_file(path: Path) -> list[Expectation]:
     return out
 
 
-def build_audit(sample: Sample, options: ProcessingOptions, observation: Observation) -> dict[str, Any]:
-    """What was checked, with which inputs and which version (for the record).
+def build_audit(
+    sample: Sample, options: ProcessingOptions, observation: Observation
+) -> dict[str, Any]:
+    """Record what was checked, with which inputs and which version.
 
-    Returns
-    -------
-    dict
-        ``tool``, ``version``, ``time`` (UTC, ISO 8601), ``inputs`` ([{role, path,
-        sha256}]), ``parameters``, ``referencing`` and ``processing`` (per role, the
-        provenance of the spectrum).
+    Extends :func:`verify.report.build_audit` (tool, version, time, every input file
+    with its SHA-256, parameters) with the referencing applied and, per experiment,
+    the processing that produced the spectrum.
     """
-    inputs = []
-    if sample.path is not None:
-        inputs.append({"role": "sample", "path": str(sample.path), "sha256": sha256_path(sample.path)})
-    if sample.structure_file is not None:
-        inputs.append(
-            {
-                "role": "structure",
-                "path": str(sample.structure_file),
-                "sha256": sha256_path(sample.structure_file),
-            }
-        )
-    for role, path in sample.spectra.items():
-        inputs.append({"role": role, "path": str(path), "sha256": sha256_path(path)})
+    from verify.report import build_audit as _inputs_audit
+
+    audit = _inputs_audit(sample, options.as_dict())
     ref = observation.referencing
     processing: dict[str, Any] = {}
     for role, ps in observation.peaksets.items():
@@ -309,22 +297,16 @@ def build_audit(sample: Sample, options: ProcessingOptions, observation: Observa
         prov["noise"] = ps.noise
         prov["threshold_snr"] = ps.threshold_snr
         processing[role] = _plain(prov)
-    return {
-        "tool": "ctally",
-        "version": __version__,
-        "time": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
-        "inputs": inputs,
-        "parameters": options.as_dict(),
-        "referencing": {
-            "offset_ppm": ref.offset_ppm,
-            "method": ref.method,
-            "solvent": ref.solvent,
-            "reference_ppm": ref.reference_ppm,
-            "found_ppm": ref.found_ppm,
-            "note": ref.note,
-        },
-        "processing": processing,
+    audit["referencing"] = {
+        "offset_ppm": ref.offset_ppm,
+        "method": ref.method,
+        "solvent": ref.solvent,
+        "reference_ppm": ref.reference_ppm,
+        "found_ppm": ref.found_ppm,
+        "note": ref.note,
     }
+    audit["processing"] = processing
+    return audit
 
 
 def _plain(value: Any) -> Any:

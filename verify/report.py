@@ -26,7 +26,6 @@ References
 
 from __future__ import annotations
 
-import contextlib
 import functools
 import hashlib
 import importlib
@@ -45,6 +44,7 @@ import jinja2
 from markupsafe import Markup
 
 from verify import __version__
+from verify._files import atomic_write_bytes
 from verify.draw import (
     MARK_STATUSES,
     PANEL_ORDER,
@@ -809,34 +809,6 @@ def _legend_glyph(status: str) -> str:
 # -------------------------------------------------------------------- writing
 
 
-def _umask() -> int:
-    mask = os.umask(0o022)
-    os.umask(mask)
-    return mask
-
-
-def _atomic_write(path: Path, data: bytes) -> Path:
-    folder = path.parent
-    if not folder.is_dir():
-        raise InputFileError(
-            f"cannot write {path.name}: the folder {folder} does not exist; create it first",
-            path=path,
-        )
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
-    try:
-        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; a report is an ordinary file
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except OSError as exc:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise InputFileError(f"cannot write {path}: {exc.strerror}", path=path) from exc
-    return path
-
-
 def write_html(verdict: Verdict, path: str | os.PathLike[str], **kw: Any) -> Path:
     """Render the report and write it to `path` atomically (temporary file + rename).
 
@@ -861,7 +833,7 @@ def write_html(verdict: Verdict, path: str | os.PathLike[str], **kw: Any) -> Pat
 
     """
     target = Path(path)
-    return _atomic_write(target, render_html(verdict, **kw).encode("utf-8"))
+    return atomic_write_bytes(target, render_html(verdict, **kw).encode("utf-8"))
 
 
 def find_browser() -> str | None:
@@ -978,7 +950,7 @@ def write_pdf(
                 f"the browser {exe!r} exited with code {run.returncode} and wrote no PDF "
                 f"({tail[0][:200]})"
             )
-    return _atomic_write(dst, data)
+    return atomic_write_bytes(dst, data)
 
 
 def html_to_pdf(
