@@ -92,6 +92,8 @@ def _dump(data: Any) -> str:
 
 def _emit(text: str, data: Any | None, json_target: str | None) -> None:
     """Print the summary and write JSON; the summary goes to stderr when JSON takes stdout."""
+    if not text.endswith("\n"):
+        text += "\n"
     if json_target == "-":
         sys.stderr.write(text)
         sys.stdout.write(_dump(data))
