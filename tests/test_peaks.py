@@ -290,3 +290,17 @@ def test_cd3_septet_of_a_deuterated_sample_carbon():
     cd = next(p for p in found if p.pattern == "C-D")
     assert cd.ppm == pytest.approx(52.0, abs=0.005) and len(cd.lines) == 7
     assert cd.j_hz == pytest.approx(20.0, abs=0.3)
+
+
+@pytest.mark.parametrize("on_line", [0, 1, -1])
+def test_sample_line_under_a_solvent_line_stays_a_carbon(on_line):
+    # a C–O carbon exactly under one CDCl3 line (common near 77 ppm)
+    pos = 77.16 + on_line * 32.0 / MHZ
+    s = spectrum(LINES + cdcl3(height=60.0) + [(pos, 600.0)], noise=1.0)
+    ps = pick_peaks(s, "carbon", solvent="CDCl3")
+    solvent = [p for p in ps.peaks if p.role == "solvent"]
+    assert len(solvent) == 1 and len(solvent[0].lines) == 2
+    assert solvent[0].ppm == pytest.approx(77.16, abs=0.005)
+    found = _sample(ps)
+    assert len(found) == len(LINES) + 1
+    assert any(abs(p.ppm - pos) < 0.005 for p in found)

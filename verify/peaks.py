@@ -37,11 +37,13 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterable
+from dataclasses import replace
 
 import numpy as np
 
 from verify._lines import (
     Line,
+    _fit_with_one_overlapped,
     binomial_pattern,
     find_lines,
     pattern_fit,
@@ -182,15 +184,16 @@ def pick_peaks(
         for sig in solvent_signals(key):
             if sig.deuterium == 0 and not found_primary:
                 continue
-            group = _solvent_group(lines, used, sig, at, hz_per_point)
-            if group is None:
+            match = _solvent_group(lines, used, sig, at, hz_per_point)
+            if match is None:
                 continue
+            group, centre_pos, j_hz = match
             found_primary = found_primary or sig.primary
             members = [lines[i] for i in group]
             used.update(group)
             peak = _merge(members, y, at, hz_per_point, sigma, "solvent", "solvent")
             if sig.deuterium > 0:
-                peak = _with_j(peak, sig.j_hz, members, step, spectrum.observe_mhz)
+                peak = replace(peak, ppm=at(centre_pos), j_hz=j_hz)
             peaks.append(peak)
             _mark_isotopologues(lines, roles, used, group, sig, at, spectrum.observe_mhz)
 
@@ -201,12 +204,12 @@ def pick_peaks(
             used.update(group)
             peak = _merge([lines[i] for i in group], y, at, hz_per_point, sigma, "sample",
                           _PATTERN_NAME[nucleus])  # fmt: skip
-            peaks.append(_with_j(peak, j, None, step, spectrum.observe_mhz))
+            peaks.append(replace(peak, j_hz=float(j)))
     if "2H" in hetero:
         for group, j in _deuterium_groups(lines, roles, used, hz_per_point, thr):
             used.update(group)
             peak = _merge([lines[i] for i in group], y, at, hz_per_point, sigma, "sample", "C-D")
-            peaks.append(_with_j(peak, j, None, step, spectrum.observe_mhz))
+            peaks.append(replace(peak, j_hz=float(j)))
 
     if experiment == "carbon":
         _mark_weak(lines, roles, used, peaks)
@@ -448,22 +451,13 @@ def _merge(
     )
 
 
-def _with_j(peak: Peak, j: float, group: list[Line] | None, step: float, mhz: float) -> Peak:
-    if group and len(group) > 1:
-        pos = sorted(ln.pos for ln in group)
-        j = float(np.mean(np.diff(pos))) * abs(step) * mhz
-    from dataclasses import replace
-
-    return replace(peak, j_hz=float(j))
-
-
 def _solvent_group(
     lines: list[Line],
     used: set[int],
     sig: SolventSignal,
     at: Callable[[float], float],
     hz_per_point: float,
-) -> list[int] | None:
+) -> tuple[list[int], float, float] | None:
     """Find the lines forming the solvent signal ``sig`` near its shift (indices).
 
     A multiplet: lines of one sign at the pattern's positions (±25 % of J) around
@@ -479,10 +473,13 @@ def _solvent_group(
         return None
     if sig.deuterium == 0:
         near = [k for k in cands if abs(to_ppm(lines[k].pos) - sig.ppm) < 0.3]
-        return [max(near, key=lambda k: abs(lines[k].height))] if near else None
+        if not near:
+            return None
+        top = max(near, key=lambda k: abs(lines[k].height))
+        return [top], lines[top].pos, 0.0
     pattern = sig.pattern
     n = len(pattern)
-    best: tuple[float, list[int]] | None = None
+    best: tuple[float, list[int], float, float] | None = None
     for c in cands:
         if abs(to_ppm(lines[c].pos) - sig.ppm) > 0.15:
             continue
@@ -504,9 +501,20 @@ def _solvent_group(
         ks = [round((lines[i].pos - lines[c].pos) / jp) + n // 2 for i in chosen]
         h = np.array([abs(lines[i].height) for i in chosen])
         misfit = pattern_fit(h, tuple(pattern[k] for k in ks))
+        if misfit >= 0.4 and abs(to_ppm(lines[c].pos) - sig.ppm) < 0.05:
+            # one line under a sample line: the solvent takes the others, the sample
+            # line stays a carbon of its own
+            misfit, keep = _fit_with_one_overlapped(h, tuple(pattern[k] for k in ks))
+            chosen = [i for i, k in zip(chosen, keep, strict=True) if k]
+            ks = [k for k, kk in zip(ks, keep, strict=True) if kk]
         if misfit < 0.4 and (best is None or misfit < best[0]):
-            best = (misfit, chosen)
-    return None if best is None else best[1]
+            # centre from each line's place in the pattern (robust to a missing line)
+            pos = np.array([lines[i].pos for i in chosen])
+            kk = np.array(ks, dtype=float)
+            j_pts = float((pos.max() - pos.min()) / (kk.max() - kk.min())) if np.ptp(kk) else jp
+            centre = float(np.mean(pos - (kk - n // 2) * j_pts))
+            best = (misfit, chosen, centre, j_pts)
+    return None if best is None else (best[1], best[2], best[3] * hz_per_point)
 
 
 def _deuterium_groups(
