@@ -458,8 +458,8 @@ def judge(
                 continue
             sevs.append(overlap_sev)
             parts.append(
-                f"{classes[k].label} would have to coincide with another carbon on a signal no "
-                "taller than one carbon"
+                f"the {classes[k].multiplicity} of {classes[k].label} has no signal of its own "
+                "(it would have to coincide with another carbon on a signal no taller than one)"
             )
         for j in extra:
             weak = is_weak(j)
