@@ -131,8 +131,20 @@ def process_fid(
     n = data.size
     dwell = fid.dwell_s
     gd = float(fid.group_delay)
+    gd_source = "file"
     if gd == 0.0:
-        data[0] *= 0.5  # analogue data: first-point scaling (Otting et al. 1986)
+        guess = _unreported_delay(data)
+        if guess:
+            gd, gd_source = float(guess), "estimated from the FID (none given)"
+            warnings.warn(
+                f"the FID starts with {guess} near-zero points as a digitally filtered one"
+                " does, but no group delay was given; taking that delay (check the"
+                " acquisition parameters)",
+                CtallyWarning,
+                stacklevel=2,
+            )
+        else:
+            data[0] *= 0.5  # analogue data: first-point scaling (Otting et al. 1986)
     t = (np.arange(n) - gd) * dwell
     data *= np.exp(-math.pi * line_broadening_hz * t)
 
@@ -171,6 +183,7 @@ def process_fid(
             "zero_fill_points": int(size),
             "fid_points": int(n),
             "group_delay_points": gd,
+            "group_delay_source": gd_source,
             "digital_filter": "first-order phase exp(+2πi k g/N) after FFT (no points lost)",
             "phase": {"p0": float(p0), "p1": float(p1), "pivot": "carrier", **info},
             "sign_free_phase": bool(sign_free),
@@ -215,6 +228,23 @@ def prepare(obj: Spectrum | Fid, *, experiment: str | None = None, **kw: Any) ->
         raise UsageError(f"prepare() takes a Spectrum or a Fid, got {type(obj).__name__}")
     fid = obj if experiment is None else replace(obj, experiment=experiment)
     return process_fid(fid, **kw)
+
+
+def _unreported_delay(data: ComplexArray) -> int:
+    """Group delay (points) a digitally filtered FID shows by its shape, or 0.
+
+    Such a FID stays near zero for the filter delay (tens of points) and then
+    jumps up.  When the first 4 points are below 2 % of the maximum of the first
+    1024 and the first point above 30 % of it lies at 8–400 points, that index is
+    returned; the remainder (about a point) is left to the first-order phase fit,
+    which spans ±2 points (±720°).
+    """
+    head = np.abs(data[: min(1024, data.size)])
+    top = float(head.max())
+    if top <= 0 or float(head[:4].max()) >= 0.02 * top:
+        return 0
+    onset = int(np.argmax(head >= 0.3 * top))
+    return onset if 8 <= onset <= 400 else 0
 
 
 # --------------------------------------------------------------------------- phase
