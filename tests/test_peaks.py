@@ -304,3 +304,26 @@ def test_sample_line_under_a_solvent_line_stays_a_carbon(on_line):
     found = _sample(ps)
     assert len(found) == len(LINES) + 1
     assert any(abs(p.ppm - pos) < 0.005 for p in found)
+
+
+@pytest.mark.parametrize(
+    ("experiment", "threshold", "match"),
+    [
+        ("cosy", 6.0, "unknown experiment"),
+        ("carbon", 0.0, "threshold_snr"),
+        ("carbon", float("nan"), "threshold_snr"),
+    ],
+)
+def test_bad_picking_arguments(experiment, threshold, match):
+    from verify.errors import UsageError
+
+    s = spectrum(LINES)
+    with pytest.raises(UsageError, match=match):
+        pick_peaks(s, experiment, threshold_snr=threshold)
+
+
+def test_input_spectrum_is_not_modified():
+    s = spectrum(LINES + cdcl3(), roll=10.0)
+    before = s.intensity.copy()
+    pick_peaks(s, "carbon", solvent="CDCl3")
+    assert np.array_equal(before, s.intensity)

@@ -50,7 +50,8 @@ from verify._lines import (
     robust_noise,
     smooth_baseline,
 )
-from verify.model import Peak, PeakSet, Referencing, Spectrum
+from verify.errors import UsageError
+from verify.model import EXPERIMENTS, Peak, PeakSet, Referencing, Spectrum
 from verify.reference import SolventSignal, canonical_solvent, solvent_signals
 
 __all__ = ["COUPLING_RANGES_HZ", "estimate_noise", "pick_peaks"]
@@ -140,6 +141,11 @@ def pick_peaks(
     referencing : Referencing, optional
         The sample's referencing (for the solvent name).
 
+    Raises
+    ------
+    UsageError
+        For an unknown experiment or a threshold that is not a positive number.
+
     Returns
     -------
     PeakSet
@@ -151,6 +157,13 @@ def pick_peaks(
     See the module docstring.
 
     """
+    if experiment not in EXPERIMENTS:
+        raise UsageError(
+            f"unknown experiment {experiment!r} for peak picking;"
+            f" use one of {', '.join(EXPERIMENTS)}"
+        )
+    if not (math.isfinite(threshold_snr) and threshold_snr > 0):
+        raise UsageError(f"threshold_snr must be a positive number, got {threshold_snr}")
     ppm = spectrum.ppm
     sigma = estimate_noise(spectrum)
     raw = spectrum.intensity
