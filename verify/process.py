@@ -346,9 +346,11 @@ def _auto_phase(
 ) -> tuple[float, float, dict[str, Any]]:
     """Zero/first-order phase in degrees from the phases of isolated peak regions."""
     regions = _peak_regions(spec, hz_per_point)
+    if len(regions) < 3:  # weak spectrum: take the lines down to 6σ in magnitude
+        regions = _peak_regions(spec, hz_per_point, min_snr=6.0) or regions
     if not regions:
         warnings.warn(
-            "no line stands out of the noise (SNR < 10); the spectrum is left unphased",
+            "no line stands out of the noise (SNR < 6); the spectrum is left unphased",
             CtallyWarning,
             stacklevel=3,
         )
