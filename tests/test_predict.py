@@ -151,6 +151,16 @@ def test_regioisomer_with_the_same_inventory_fits_worse(true_smiles: str) -> Non
     assert wrong > 3 * right + 10.0
 
 
+def test_cis_and_trans_alkenes_are_told_apart() -> None:
+    # (E)-2-butene CH3 17.6, (Z)-2-butene CH3 12.0 [H], from memory: the gamma effect
+    # across the double bond is larger cis
+    trans = predict_atom_shifts(Chem.MolFromSmiles("C/C=C/C"))
+    cis = predict_atom_shifts(Chem.MolFromSmiles("C/C=C\\C"))
+    assert trans[0][0] - cis[0][0] > 2.0
+    assert abs(trans[0][0] - 17.6) <= 2 * trans[0][1]
+    assert abs(cis[0][0] - 12.0) <= 2 * cis[0][1]
+
+
 def test_homologous_esters_are_told_apart() -> None:
     # methyl acetate C=O 171.0 and methyl propanoate C=O 174.6 [H], from memory: the
     # predictor must put the propanoate carbonyl higher (alpha-branching effect)

@@ -73,6 +73,12 @@ _SINGLE = Chem.BondType.SINGLE
 _DOUBLE = Chem.BondType.DOUBLE
 _TRIPLE = Chem.BondType.TRIPLE
 _HALOGENS = frozenset({9, 17, 35, 53})
+_EZ = (
+    Chem.BondStereo.STEREOE,
+    Chem.BondStereo.STEREOZ,
+    Chem.BondStereo.STEREOCIS,
+    Chem.BondStereo.STEREOTRANS,
+)
 #: Crude (lo, hi) ranges in ppm used only when no class range is known (common practice).
 _CRUDE_RANGE = {"sp3": (0.0, 90.0), "sp2": (100.0, 170.0), "sp": (65.0, 125.0)}
 
@@ -808,11 +814,38 @@ def _beyond_unsaturated(mol: Chem.Mol, x: int, group: Chem.Atom, visited: set[in
             if c.GetIdx() in visited or cb.GetIsAromatic() or cb.GetBondType() != _SINGLE:
                 continue
             if _is_alkyl(mol, c):
-                total += k["gamma"] if bond.GetIsAromatic() else k["vinyl_gamma"]
+                if bond.GetIsAromatic():
+                    total += k["gamma"]
+                else:
+                    side = _side(mol, x, group.GetIdx(), b.GetIdx(), c.GetIdx())
+                    total += k["vinyl_gamma"][side]
             else:
                 g, _ = _lookup(k["groups"], _group(mol, b.GetIdx(), c))
                 total += g[3]
     return total
+
+
+def _side(mol: Chem.Mol, x: int, a: int, b: int, c: int) -> str:
+    """Tell whether `x` (on alkene carbon `a`) and `c` (on `b`) are ``cis`` or ``trans``.
+
+    From the bond's E/Z label (RDKit sets it for its stereo atoms, the CIP-highest
+    neighbours) or from a ring of at most eight atoms holding both; ``unknown`` otherwise.
+    """
+    bond = mol.GetBondBetweenAtoms(a, b)
+    if bond.IsInRing():
+        ring = [r for r in mol.GetRingInfo().AtomRings() if {a, b, x, c} <= set(r)]
+        if any(len(r) <= 8 for r in ring):
+            return "cis"
+    stereo = bond.GetStereo()
+    if stereo not in _EZ:
+        return "unknown"
+    refs = list(bond.GetStereoAtoms())
+    if len(refs) != 2:
+        return "unknown"
+    ref_a, ref_b = (refs[0], refs[1]) if bond.GetBeginAtomIdx() == a else (refs[1], refs[0])
+    cis = stereo in (Chem.BondStereo.STEREOZ, Chem.BondStereo.STEREOCIS)
+    cis ^= (x != ref_a) ^ (c != ref_b)
+    return "cis" if cis else "trans"
 
 
 def _carbon_degree(atom: Chem.Atom) -> int:
