@@ -111,6 +111,13 @@ def _ppm(x: float) -> str:
     return f"{x:.2f} ppm"
 
 
+def _carbon(cls: CarbonClass) -> str:
+    """Name a carbon as a chemist says it: 'the CH2 of C5', 'the quaternary C7'."""
+    if cls.multiplicity == "C":
+        return f"the quaternary {cls.label}"
+    return f"the {cls.multiplicity} of {cls.label}"
+
+
 def _join(items: Sequence[str]) -> str:
     items = list(items)
     if len(items) <= 1:
@@ -436,7 +443,7 @@ def judge(
             if hidden is not None:
                 sevs.append("review")
                 parts.append(
-                    f"the {cls.multiplicity} of {cls.label} has no signal of its own; it may lie "
+                    f"{_carbon(cls)} has no signal of its own; it may lie "
                     f"under the solvent signal at {_ppm(hidden)}"
                 )
             elif HYDROGENS[cls.multiplicity] == 0 and len(missing_q) <= cfg.max_missing_quaternary:
@@ -446,7 +453,7 @@ def judge(
                 )
             else:
                 sevs.append("review" if weak_data else "fail")
-                parts.append(f"the {cls.multiplicity} of {cls.label} has no signal")
+                parts.append(f"{_carbon(cls)} has no signal")
         for k in unsup:
             hidden = _hidden_under_solvent(classes[k], obs, cfg)
             if hidden is not None:
@@ -458,7 +465,7 @@ def judge(
                 continue
             sevs.append(overlap_sev)
             parts.append(
-                f"the {classes[k].multiplicity} of {classes[k].label} has no signal of its own "
+                f"{_carbon(classes[k])} has no signal of its own "
                 "(it would have to coincide with another carbon on a signal no taller than one)"
             )
         for j in extra:
