@@ -327,3 +327,16 @@ def test_input_spectrum_is_not_modified():
     before = s.intensity.copy()
     pick_peaks(s, "carbon", solvent="CDCl3")
     assert np.array_equal(before, s.intensity)
+
+
+def test_area_of_close_lines_is_split_between_them():
+    # two equal Lorentzians 8 Hz apart (4 FWHM): each area is its own, not the pair's
+    d = 8.0 / MHZ
+    s = spectrum([(100.0, 200.0), (100.0 + d, 200.0)], noise=0.5, fwhm_hz=2.0)
+    found = _sample(pick_peaks(s, "carbon"))
+    assert len(found) == 2
+    # integral of one Lorentzian over ±(half the spacing) = ±2 FWHM plus the
+    # neighbour's wing inside it: between 0.8 and 1.1 of h·(w/2)·π (analytic)
+    full = 200.0 * (1.0 / MHZ) * np.pi
+    for p in found:
+        assert 0.8 * full < p.area < 1.1 * full

@@ -180,6 +180,7 @@ def pick_peaks(
     lines = find_lines(y, thr, min_prominence=thr, wlen=wlen)
     lines += find_lines(y, thr, min_prominence=thr, sign=-1, wlen=wlen)
     lines.sort(key=lambda ln: ln.pos)
+    all_pos = np.array([ln.pos for ln in lines])
 
     def at(pos: float) -> float:
         return float(ppm[0] + pos * step)
@@ -204,7 +205,7 @@ def pick_peaks(
             found_primary = found_primary or sig.primary
             members = [lines[i] for i in group]
             used.update(group)
-            peak = _merge(members, y, at, hz_per_point, sigma, "solvent", "solvent")
+            peak = _merge(members, y, at, hz_per_point, sigma, "solvent", "solvent", all_pos)
             if sig.deuterium > 0:
                 peak = replace(peak, ppm=at(centre_pos), j_hz=j_hz)
             peaks.append(peak)
@@ -215,13 +216,16 @@ def pick_peaks(
             continue
         for group, j in _coupled_groups(lines, roles, used, nucleus, hz_per_point):
             used.update(group)
-            peak = _merge([lines[i] for i in group], y, at, hz_per_point, sigma, "sample",
-                          _PATTERN_NAME[nucleus])  # fmt: skip
+            members = [lines[i] for i in group]
+            pattern = _PATTERN_NAME[nucleus]
+            peak = _merge(members, y, at, hz_per_point, sigma, "sample", pattern, all_pos)
             peaks.append(replace(peak, j_hz=float(j)))
     if "2H" in hetero:
         for group, j in _deuterium_groups(lines, roles, used, hz_per_point, thr):
             used.update(group)
-            peak = _merge([lines[i] for i in group], y, at, hz_per_point, sigma, "sample", "C-D")
+            peak = _merge(
+                [lines[i] for i in group], y, at, hz_per_point, sigma, "sample", "C-D", all_pos
+            )
             peaks.append(replace(peak, j_hz=float(j)))
 
     if experiment == "carbon":
@@ -231,7 +235,7 @@ def pick_peaks(
     for i, ln in enumerate(lines):
         if i in used:
             continue
-        peaks.append(_merge([ln], y, at, hz_per_point, sigma, roles[i], None))
+        peaks.append(_merge([ln], y, at, hz_per_point, sigma, roles[i], None, all_pos))
 
     return PeakSet(
         experiment=experiment,
@@ -435,15 +439,26 @@ def _merge(
     sigma: float,
     role: str,
     pattern: str | None,
+    all_pos: np.ndarray,
 ) -> Peak:
-    """One Peak from one or more lines (a multiplet: centre, lines, summed area)."""
+    """One Peak from one or more lines (a multiplet: centre, lines, summed area).
+
+    ``all_pos``: sorted positions (points) of every picked line, for clipping.
+    """
     to_ppm = at
     group = sorted(group, key=lambda ln: ln.pos)
     top = max(group, key=lambda ln: abs(ln.height))
     step = to_ppm(1.0) - to_ppm(0.0)
-    lo = group[0].pos - 3 * group[0].width
-    hi = group[-1].pos + 3 * group[-1].width
-    area = _area(y, lo, hi, step)
+    area = 0.0
+    for ln in group:  # each line over ±3 widths, clipped half-way to its neighbours
+        lo, hi = ln.pos - 3 * ln.width, ln.pos + 3 * ln.width
+        k = int(np.searchsorted(all_pos, ln.pos))
+        if k > 0:
+            lo = max(lo, 0.5 * (all_pos[k - 1] + ln.pos))
+        nxt = k + 1 if k < all_pos.size and all_pos[k] == ln.pos else k
+        if nxt < all_pos.size:
+            hi = min(hi, 0.5 * (all_pos[nxt] + ln.pos))
+        area += _area(y, lo, hi, step)
     if len(group) == 1:
         centre = float(to_ppm(top.pos))
         lines_ppm: tuple[float, ...] = ()
