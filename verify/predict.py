@@ -626,6 +626,7 @@ def _alkene(mol: Chem.Mol, atom: Chem.Atom, partner: Chem.Atom, rings: _Rings) -
         return _Prediction(a["allene"]["terminal"], sd["allene"], "allene")
     ppm = a["base"]
     n = 0
+    n_func = 0
     side_alpha = []
     acceptors = set(a["acceptors"])
     own_keys = [_group(mol, x, z)[0] for z in _heavy(atom, y) if not _is_alkyl(mol, z)]
@@ -652,6 +653,7 @@ def _alkene(mol: Chem.Mol, atom: Chem.Atom, partner: Chem.Atom, rings: _Rings) -
                         ppm += a["gamma" + suffix]
             else:
                 keys = _group(mol, centre.GetIdx(), z)
+                n_func += 1
                 incr, _ = _lookup(a["substituents"], keys)
                 damp = (
                     a["conjugated_damping"]
@@ -678,7 +680,13 @@ def _alkene(mol: Chem.Mol, atom: Chem.Atom, partner: Chem.Atom, rings: _Rings) -
         elif _is_cis(mol, atom, partner, rings):
             ppm += a["cis"]
     return _Prediction(
-        ppm, math.hypot(sd["alkene"], sd["alkene_per_increment"] * math.sqrt(n)), "alkene"
+        ppm,
+        math.hypot(
+            sd["alkene"],
+            sd["alkene_per_increment"] * math.sqrt(n),
+            sd["alkene_per_group"] * math.sqrt(n_func),
+        ),
+        "alkene",
     )
 
 
