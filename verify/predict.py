@@ -198,7 +198,9 @@ def _group(mol: Chem.Mol, frm: int, atom: Chem.Atom) -> tuple[str, ...]:
                 return ("N=C", "NR2")
             return ("NO2",)
         if atom.GetFormalCharge() > 0:
-            return ("NR3", "NR2")
+            if not _hs(atom) and len(subs) >= 3:
+                return ("NR4", "NR3", "NR2")  # quaternary ammonium
+            return ("NR3", "NR2")  # protonated amine
         if any(_is_acyl(mol, s) for s in subs):
             return ("NHCOR",) if _hs(atom) else ("NRCOR", "NHCOR")
         if any(s.GetIsAromatic() for s in subs):
@@ -223,6 +225,8 @@ def _group(mol: Chem.Mol, frm: int, atom: Chem.Atom) -> tuple[str, ...]:
         return ("SH",) if _hs(atom) else ("SR",)
     if z == 14:
         return ("SiR3",)
+    if z == 5:
+        return ("B",)
     if z == 15:
         return ("P",)
     if z == 34:
