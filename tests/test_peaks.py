@@ -340,3 +340,18 @@ def test_area_of_close_lines_is_split_between_them():
     full = 200.0 * (1.0 / MHZ) * np.pi
     for p in found:
         assert 0.8 * full < p.area < 1.1 * full
+
+
+def test_c_p_doublets_and_unrelated_aromatic_pairs():
+    # phosphonate: P–CH2 1J ~140 Hz, P–O–CH2 2J ~6 Hz (handbook ranges, from memory)
+    j1, j2 = 140.0 / MHZ, 6.5 / MHZ
+    lines = [(33.5 + j1 / 2, 70.0), (33.5 - j1 / 2, 70.0)]
+    lines += [(62.1 + j2 / 2, 90.0), (62.1 - j2 / 2, 90.0)]
+    # two aromatic CH of other carbons, 25 Hz apart but of clearly different height
+    lines += [(128.9, 160.0), (128.9 - 25.0 / MHZ, 100.0)]
+    s = spectrum(lines, noise=1.0)
+    found = _sample(pick_peaks(s, "carbon", hetero=frozenset({"31P"})))
+    cp = sorted((p for p in found if p.pattern == "C-P"), key=lambda p: -p.ppm)
+    assert [p.ppm for p in cp] == pytest.approx([62.1, 33.5], abs=0.005)
+    assert [p.j_hz for p in cp] == pytest.approx([6.5, 140.0], abs=0.5)
+    assert len(found) == 4  # the two aromatic lines stay two carbons
