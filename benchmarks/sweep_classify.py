@@ -70,7 +70,7 @@ def run(quick: bool, picker: str) -> None:
     snrs = (15.0, 20.0, 50.0, 200.0)
     per_cond = 2 if quick else 6
     sets = {"with DEPT-90": ("carbon", "dept90", "dept135"), "DEPT-135 only": ("carbon", "dept135")}
-    stats: dict[tuple[str, float, float], list[int]] = defaultdict(lambda: [0, 0, 0, 0, 0])
+    stats: dict[tuple[str, float, float], list[int]] = defaultdict(lambda: [0, 0, 0, 0, 0, 0])
     start = time.time()
     seed = 0
     for label, exps in sets.items():
@@ -117,7 +117,7 @@ def run(quick: bool, picker: str) -> None:
         for j in j_values:
             cells = []
             for snr in snrs:
-                right, found, missed, res, _ = stats[(label, j, snr)]
+                right, found, missed, res, _, _ = stats[(label, j, snr)]
                 acc = 100.0 * right / found if found else float("nan")
                 cells.append(f"{acc:6.1f} {missed:3d} {res:3d}      ")
             print(f"{j:6.0f} " + "".join(cells))

@@ -28,19 +28,29 @@ How it decides
    model error (20 %) and a floor (3 % of a typical peak, for baseline and phase)
    set the weights.
 3. **Experiment scales and signs.**  Each experiment has its own unknown intensity
-   scale and possibly an inverted phase; both are fitted by maximising the total
-   fit over all signals (profile likelihood).  DEPT-90 CH peaks are positive, and a
-   CH seen in DEPT-90 must then be positive in DEPT-135; without DEPT-90 the
-   shift-region class priors (aromatic CH 110–160 ppm, carbonyl C, alkyl CH3 …) and
-   in APT the solvent's deuterated carbon (no protium: the quaternary phase) settle
-   the sign.  Experiments whose stored phase was inverted are reported.
+   scale and possibly an inverted phase; both are fitted by minimising the total score
+   over all signals (profile likelihood; every sign combination is tried, each signal's
+   score is capped so that junk cannot steer the fit).  Two priors anchor the fit: the
+   stored phase is favoured (processed exports are usually phased CH/CH3 up), and the
+   DEPT experiments of one sample have comparable SNR per unit response (the scale of
+   an exported spectrum moves with its noise).  DEPT-90 CH peaks are positive, and a CH
+   seen in DEPT-90 must then be positive in DEPT-135; without DEPT-90 the shift-region
+   class priors (aromatic CH 110–160 ppm, carbonyl C, alkyl CH3 …) and in APT the
+   solvent's deuterated carbon (no protium: the quaternary phase) settle the sign.
+   Experiments read with the opposite of their stored phase are reported as inverted;
+   when the data do not settle the phase firmly, every phase-dependent confidence is
+   multiplied by the probability of the reading used.
 4. **Calls.**  Scores become posterior probabilities with weak shift-region priors
    (``verify/data/edited_spectra.toml``); the confidence is the best class's
    probability, lowered when no class fits well.  Where the data cannot separate two
    classes (CH vs CH3 with DEPT-135 alone, C vs CH2 with APT alone) both stay as
    candidates.  A signal that no single class explains but a pair does is reported as
    mixed; one about twice as tall as its class-mates in both the carbon and the edited
-   spectra is flagged as possibly two equivalent carbons.
+   spectra is flagged as possibly two equivalent carbons.  A peak seen only in an
+   edited spectrum is kept as a signal, unless the carbon spectrum would clearly show
+   a carbon of that size and does not (then an artifact), or it is far smaller than
+   any carbon of the sample (then a minor component, role ``impurity``).  Shoulders
+   on the flank of a much stronger peak are artifacts.
 
 Assumptions: proton-decoupled spectra; the DEPT/APT delays set for 1J(C,H) = 145 Hz
 (the usual default, common practice); one referenced axis for all experiments.
@@ -75,6 +85,8 @@ from verify.simulate import DEPT_THETA, _tables, canonical_solvent, typical_j_hz
 
 __all__ = ["classify", "format_observation", "observation_to_dict"]
 
+_Array = npt.NDArray[np.float64]
+
 #: Coupling (Hz) the DEPT and APT delays are assumed to be set for (common default).
 J_SET_HZ = 145.0
 #: Relative model error of a predicted edited-spectrum height (NOE/relaxation/width).
@@ -96,6 +108,8 @@ ROW_CAP = 25.0
 #: Below this fraction of a typical carbon, an edited-only peak is a minor component
 #: (all carbons of one compound share its concentration; common practice).
 MINOR_FRACTION = 0.15
+#: Extra cost of a CH2/CH3 coupling > 45 Hz above typical (a CH+CH2 overlap mimics it).
+EXTREME_J_PENALTY = 4.0
 #: Minimum matching tolerance in ppm.
 MIN_TOLERANCE_PPM = 0.05
 #: |height| / noise above which a peak counts as present in words.
@@ -144,10 +158,7 @@ def _j_grid(ppm: float) -> npt.NDArray[np.float64]:
     out = np.empty((4, _J_OFFSETS.size))
     for m, mult in enumerate(MULTIPLICITIES):
         typ = typical_j_hz(ppm, mult)
-        offsets = _J_OFFSETS if mult == "CH" else np.minimum(_J_OFFSETS, 45.0)
-        # only a CH reaches ~200 Hz and beyond (formyl, azine C2-H, alkyne); a CH2 or
-        # CH3 stays within ~45 Hz of its typical value (Pretsch 2009, from memory)
-        out[m] = np.clip(typ + offsets, 110.0, 260.0)
+        out[m] = np.clip(typ + _J_OFFSETS, 110.0, 260.0)
     alk = _tables()["alkyne_ch"]
     if alk["lo"] <= ppm < alk["hi"]:
         out[1, -1] = float(alk["j_hz"])
@@ -157,13 +168,18 @@ def _j_grid(ppm: float) -> npt.NDArray[np.float64]:
 def _j_penalty(ppm: float, grid: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
     """Penalty (χ² units) for a coupling away from the typical one.
 
-    Free within ±12 Hz, then Gaussian with 25 Hz spread (Pretsch 2009 ranges, from memory).
+    Free within ±12 Hz, then Gaussian with 25 Hz spread (Pretsch 2009 ranges, from memory);
+    CH2/CH3 more than 45 Hz above their typical coupling pay EXTREME_J_PENALTY more.
     """
     pen = np.empty_like(grid)
     for m, mult in enumerate(MULTIPLICITIES):
         typ = typical_j_hz(ppm, mult)
         dev = np.maximum(np.abs(grid[m] - typ) - 12.0, 0.0)
         pen[m] = (dev / 25.0) ** 2
+        if mult in ("CH2", "CH3"):
+            # only a CH reaches ~200 Hz and beyond (formyl, azine C2-H, alkyne); a CH2
+            # or CH3 that far from its typical value is implausible (Pretsch 2009)
+            pen[m] += np.where(grid[m] - typ > 45.0, EXTREME_J_PENALTY, 0.0)
     alk = _tables()["alkyne_ch"]
     if alk["lo"] <= ppm < alk["hi"]:
         pen[1, -1] = 2.0  # a terminal alkyne CH: possible but not the default reading
@@ -375,12 +391,13 @@ class _Data:
     fixed: npt.NDArray[np.int64]  # (N,) forced class index or -1 (solvent = C)
     weight: npt.NDArray[np.float64]  # (N,) weight in the global fit
     resp: npt.NDArray[np.float64]  # (N, 4, K, E) model responses
-    pen: npt.NDArray[np.float64]  # (N, 4, K) J/θ penalties
+    pen: npt.NDArray[np.float64]  # (N, 4, K) J penalties (θ penalty apart)
     logprior: npt.NDArray[np.float64]  # (N, 4) −2 ln prior
     noe: npt.NDArray[np.float64]  # (N, 4) carbon-height (NOE) term
     typical: npt.NDArray[np.float64]  # (E,) typical |height| per experiment
     apt_only: npt.NDArray[np.bool_]  # (N,) no carbon peak and no DEPT evidence of protium
     carbon_ref: float  # median carbon height (for relative evidence without a carbon peak)
+    theta_of_k: npt.NDArray[np.int64]  # (K,) index into _THETA_ERR of each grid point
 
 
 def _prepare(
@@ -422,7 +439,7 @@ def _prepare(
         nn = _N_H[:, None].repeat(k_count, axis=1)
         for k, e in enumerate(edited):
             resp[i, :, :, k] = _response(e, nn, jj, tt)
-        pen[i] = np.repeat(jpen, _THETA_ERR.size, axis=1) + (tt / 5.0) ** 2
+        pen[i] = np.repeat(jpen, _THETA_ERR.size, axis=1)
         prior = np.asarray(_class_prior(float(r.ppm)))
         logprior[i] = -2.0 * np.log(prior)
     typical = np.array(
@@ -455,6 +472,7 @@ def _prepare(
         typical,
         apt_only,
         carbon_ref,
+        np.tile(np.arange(_THETA_ERR.size), _J_OFFSETS.size),
     )
 
 
@@ -503,7 +521,10 @@ def _noe_terms(
 
 
 def _core(
-    data: _Data, scales: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]
+    data: _Data,
+    scales: npt.NDArray[np.float64],
+    sign: npt.NDArray[np.float64],
+    theta: int | None = None,
 ) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64], npt.NDArray[np.float64]]:
     """Scores for a batch of scale vectors.
 
@@ -515,6 +536,9 @@ def _core(
         Experiment scales to try.
     sign : array, shape (E,)
         Experiment signs.
+    theta : int or None
+        Index into the pulse-angle error grid when the error is fixed for the whole
+        sample (one proton pulse calibration); None lets every signal take its own.
 
     Returns
     -------
@@ -561,7 +585,14 @@ def _core(
         prior_amp += pa
         if is_dept:
             amp_out = np.where(active, u, amp_out)
-    return chi + prior_amp + data.pen[None], chi, amp_out
+    return chi + prior_amp + (data.pen + _theta_penalty(data, theta))[None], chi, amp_out
+
+
+def _theta_penalty(data: _Data, theta: int | None) -> npt.NDArray[np.float64]:
+    """Per-grid-point θ term: free θ pays (θ/5°)² per signal; a fixed θ rules out others."""
+    if theta is None:
+        return np.asarray((_THETA_ERR[data.theta_of_k] / 5.0) ** 2, dtype=float)
+    return np.where(data.theta_of_k == theta, 0.0, np.inf)
 
 
 def _finish(data: _Data, best: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]:
@@ -578,9 +609,14 @@ def _finish(data: _Data, best: npt.NDArray[np.float64]) -> npt.NDArray[np.float6
     return best
 
 
-def _scores(data: _Data, scale: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]) -> _Fit:
+def _scores(
+    data: _Data,
+    scale: npt.NDArray[np.float64],
+    sign: npt.NDArray[np.float64],
+    theta: int | None = None,
+) -> _Fit:
     """Score of every class for every row under given experiment scales and signs."""
-    total, chi, amp = (a[0] for a in _core(data, scale[None, :], sign))
+    total, chi, amp = (a[0] for a in _core(data, scale[None, :], sign, theta))
     n = total.shape[0]
     k_best = np.argmin(total, axis=2)  # (N, 4)
     idx = np.arange(n)[:, None], np.arange(4)[None, :], k_best
@@ -589,20 +625,30 @@ def _scores(data: _Data, scale: npt.NDArray[np.float64], sign: npt.NDArray[np.fl
 
 
 def _totals(
-    data: _Data, scales: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]
+    data: _Data,
+    scales: npt.NDArray[np.float64],
+    sign: npt.NDArray[np.float64],
+    theta: int | None = None,
 ) -> npt.NDArray[np.float64]:
     """Total score of each scale vector of a batch (B, E) → (B,)."""
-    total, _, _ = _core(data, scales, sign)
+    total, _, _ = _core(data, scales, sign, theta)
     best = _finish(data, np.min(total, axis=3))  # (B, N, 4)
     per_row = np.min(best, axis=2)
     # robust: a row no class explains (overlap, picking junk) cannot steer the scales
     capped = np.minimum(np.where(np.isfinite(per_row), per_row, 1e6), ROW_CAP)
     rows = np.sum(data.weight[None, :] * capped, axis=1)
-    return np.asarray(rows + np.array([_scale_prior(data, sc) for sc in scales]), dtype=float)
+    theta_term = 0.0 if theta is None else float((_THETA_ERR[theta] / 5.0) ** 2)
+    priors = np.array([_scale_prior(data, sc) for sc in scales]) + theta_term
+    return np.asarray(rows + priors, dtype=float)
 
 
-def _total(data: _Data, scale: npt.NDArray[np.float64], sign: npt.NDArray[np.float64]) -> float:
-    return float(_totals(data, scale[None, :], sign)[0])
+def _total(
+    data: _Data,
+    scale: npt.NDArray[np.float64],
+    sign: npt.NDArray[np.float64],
+    theta: int | None = None,
+) -> float:
+    return float(_totals(data, scale[None, :], sign, theta)[0])
 
 
 def _scale_prior(data: _Data, scale: npt.NDArray[np.float64]) -> float:
@@ -626,8 +672,8 @@ def _scale_prior(data: _Data, scale: npt.NDArray[np.float64]) -> float:
 
 def _fit_globals(
     data: _Data, peaksets: Mapping[str, PeakSet]
-) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64], float]:
-    """Experiment scales and signs that minimise the total score (profile likelihood).
+) -> tuple[_Array, _Array, float, int | None]:
+    """Experiment scales, signs and the common pulse-angle error that minimise the total score (profile likelihood).
 
     Every sign combination is tried (the stored phase is favoured by FLIP_PRIOR per
     flipped experiment; a DEPT-90 of a sample with few CH can be dominated by negative
@@ -658,6 +704,7 @@ def _fit_globals(
     best_total = math.inf
     best_scale, best_sign = start.copy(), fixed_sign.copy()
     totals: list[float] = []
+    best_theta: int | None = None
     for combo in itertools.product((1.0, -1.0), repeat=len(free)):
         sign = fixed_sign.copy()
         for k, sg in zip(free, combo, strict=True):
@@ -681,16 +728,37 @@ def _fit_globals(
                     total, scale = float(values[pick]), trials[pick].copy()
             if sweep > 0 and total > before - 1e-6:
                 break
+        # one proton pulse serves the whole sample: its angle error is common to all
+        # signals, so fix it per sample and refine the scales for each value
+        theta_best, total_t, scale_t = None, math.inf, scale
+        if any(e != "apt" for e in data.edited):
+            for t in range(_THETA_ERR.size):
+                sc_t = scale.copy()
+                tot = _total(data, sc_t, sign, t)
+                for sweep in (1, 2):
+                    for k in range(e_count):
+                        if k == base:
+                            continue
+                        grid = sc_t[k] * np.exp(np.linspace(-0.6, 0.6, 13) / sweep)
+                        trials = np.repeat(sc_t[None, :], grid.size, axis=0)
+                        trials[:, k] = grid
+                        values = _totals(data, trials, sign, t)
+                        pick = int(np.argmin(values))
+                        if values[pick] < tot - 1e-9:
+                            tot, sc_t = float(values[pick]), trials[pick].copy()
+                if tot < total_t:
+                    theta_best, total_t, scale_t = t, tot, sc_t
+            total, scale = total_t, scale_t
         # the stored phase is more often right than not (processed exports are usually
         # phased CH/CH3 up; common practice): flipping it costs FLIP_PRIOR
         total += FLIP_PRIOR * sum(1 for sg in combo if sg < 0)
         totals.append(total)
         if total < best_total - 1e-9:
-            best_total, best_scale, best_sign = total, scale, sign
+            best_total, best_scale, best_sign, best_theta = total, scale, sign, theta_best
     # probability that the chosen signs are right, against the other combinations
     weights = np.exp(-0.5 * (np.asarray(totals) - best_total))
     sign_p = float(1.0 / weights.sum())
-    return best_scale, best_sign, sign_p
+    return best_scale, best_sign, sign_p, best_theta
 
 
 # ------------------------------------------------------------------ decisions
@@ -861,7 +929,7 @@ def classify(
             if r.carbon is not None:
                 r.carbon = _negated(r.carbon)
     data = _prepare(rows, peaksets, edited, offsets)
-    scale, sign, sign_p = _fit_globals(data, peaksets)
+    scale, sign, sign_p, theta = _fit_globals(data, peaksets)
     if sign_p < 0.95:
         phased = " and ".join(_NAMES[e] for e in edited if e in ("dept135", "apt"))
         notes.append(
@@ -873,7 +941,12 @@ def classify(
         if sign[k] < 0:
             inverted.append(e)
             notes.append(f"{_NAMES[e]} was stored with inverted phase; its signs were corrected.")
-    fit = _scores(data, scale, sign)
+    fit = _scores(data, scale, sign, theta)
+    if theta is not None and _THETA_ERR[theta] != 0.0:
+        notes.append(
+            f"The edited spectra fit best with the final DEPT pulse {_THETA_ERR[theta]:+.0f}° "
+            "off its nominal angle (a mis-set proton pulse)."
+        )
     if "carbon" in peaksets:
         for i, row in enumerate(rows):
             if row.carbon is None and row.role == "sample":
@@ -1095,17 +1168,16 @@ def _decide(
     mixed = False
     candidates = tuple(MULTIPLICITIES[m] for m in range(4) if post[m] >= 0.1)
     mixed_words = ""
-    if chi_best > 9.0:
-        alt = _mixed_fit(data, i, scale, sign)
-        if alt is not None and alt[0] < float(fit.scores[i, m_best]) - 2.0:
-            mixed = True
-            a, b = alt[1]
-            candidates = (MULTIPLICITIES[a], MULTIPLICITIES[b])
-            mixed_words = (
-                f"; no single class fits (best {MULTIPLICITIES[m_best]}, χ² {chi_best:.0f}), "
-                f"an overlap of {MULTIPLICITIES[a]} + {MULTIPLICITIES[b]} does"
-            )
-            conf = min(conf, 0.5)
+    alt = _mixed_fit(data, i, scale, sign)
+    if alt is not None and alt[0] < float(fit.scores[i, m_best]) - 2.0:
+        mixed = True
+        a, b = alt[1]
+        candidates = (MULTIPLICITIES[a], MULTIPLICITIES[b])
+        mixed_words = (
+            f"; fits no single class well (best {MULTIPLICITIES[m_best]}, χ² {chi_best:.0f}), "
+            f"an overlap of {MULTIPLICITIES[a]} + {MULTIPLICITIES[b]} fits better"
+        )
+        conf = min(conf, 0.5)
     mult: Multiplicity = MULTIPLICITIES[m_best]
     unit = "of carbon height" if has_c else "of a typical carbon's height"
     words = [_word(e, evidence[e], present[e], unit) for e in data.edited]
@@ -1116,6 +1188,8 @@ def _decide(
         tail = f"{mult} (or {' or '.join(alts)}; {region})"
     else:
         tail = mult
+    if mult == "C" and not mixed and any(e != "apt" for e in data.edited):
+        tail += " (a protonated carbon would give about ±0.7–1.1 of its carbon height in DEPT)"
     reason = ", ".join(words) + mixed_words + f": {tail}"
     if carbon is not None and carbon.pattern == "C-D" and mult == "C":
         reason = (
