@@ -355,3 +355,16 @@ def test_c_p_doublets_and_unrelated_aromatic_pairs():
     assert [p.ppm for p in cp] == pytest.approx([62.1, 33.5], abs=0.005)
     assert [p.j_hz for p in cp] == pytest.approx([6.5, 140.0], abs=0.5)
     assert len(found) == 4  # the two aromatic lines stay two carbons
+
+
+@pytest.mark.shared
+def test_noise_matches_a_signal_free_region_of_a_measured_spectrum(spectra_dir):
+    # estragole in CDCl3 has no carbon between 160 and 180 ppm (its C-O aryl carbon
+    # is at ~158; lit. shifts, e.g. SDBS): the plain SD there, after removing a
+    # straight line, is an independent noise estimate.
+    s = _carbon(spectra_dir / "estragole/13c.fid.dx")
+    m = (s.ppm > 162.0) & (s.ppm < 180.0)
+    seg = s.intensity[m]
+    x = np.arange(seg.size)
+    resid = seg - np.polyval(np.polyfit(x, seg, 1), x)
+    assert estimate_noise(s) == pytest.approx(float(np.std(resid)), rel=0.15)
