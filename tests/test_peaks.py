@@ -359,9 +359,9 @@ def test_c_p_doublets_and_unrelated_aromatic_pairs():
 
 @pytest.mark.shared
 def test_noise_matches_a_signal_free_region_of_a_measured_spectrum(spectra_dir):
-    # estragole in CDCl3 has no carbon between 160 and 180 ppm (its C-O aryl carbon
-    # is at ~158; lit. shifts, e.g. SDBS): the plain SD there, after removing a
-    # straight line, is an independent noise estimate.
+    # estragole has no carbon between 160 and 180 ppm (no carbonyl; an anisole's
+    # aryl C–O carbon lies near 158 ppm: common practice): the plain SD there, after
+    # removing a straight line, is an independent noise estimate.
     s = _carbon(spectra_dir / "estragole/13c.fid.dx")
     m = (s.ppm > 162.0) & (s.ppm < 180.0)
     seg = s.intensity[m]
