@@ -673,7 +673,9 @@ def _scale_prior(data: _Data, scale: npt.NDArray[np.float64]) -> float:
 def _fit_globals(
     data: _Data, peaksets: Mapping[str, PeakSet]
 ) -> tuple[_Array, _Array, float, int | None]:
-    """Experiment scales, signs and the common pulse-angle error that minimise the total score (profile likelihood).
+    """Experiment scales, signs and pulse-angle error that minimise the total score.
+
+    A profile-likelihood fit.
 
     Every sign combination is tried (the stored phase is favoured by FLIP_PRIOR per
     flipped experiment; a DEPT-90 of a sample with few CH can be dominated by negative
