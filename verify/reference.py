@@ -421,7 +421,7 @@ def _find_reference(
                 ),
             )
         note = f"The {key} multiplet near {sig.ppm:.2f} ppm was not found; "
-    other = _other_solvent(spec, key, tol)
+    other = _other_solvent(spec, key, tol) if key != "D2O" else None
     if other is not None:
         return replace(other, note=note + other.note)
     tms = solvent_signals("TMS")[0]
