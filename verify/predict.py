@@ -659,11 +659,11 @@ def _alkene(mol: Chem.Mol, atom: Chem.Atom, partner: Chem.Atom, rings: _Rings) -
                 keys = _group(mol, centre.GetIdx(), z)
                 n_func += 1
                 incr, _ = _lookup(a["substituents"], keys)
-                damp = (
-                    a["conjugated_damping"]
-                    if not own and own_plain and keys[0] in ("aryl", "vinyl")
-                    else 1.0
-                )
+                damp = 1.0
+                if not own and own_plain and keys[0] in ("aryl", "vinyl"):
+                    damp = a["conjugated_damping"]
+                elif not own and _heavy(atom, y) and keys[0] in a["donors"]:
+                    damp = a["donor_damping"]
                 ppm += incr[column] * damp
             n += 1
         side_alpha.append(n_alpha)
