@@ -16,6 +16,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from verify.classify import classify, format_observation, observation_to_dict
 from verify.errors import UsageError
@@ -379,3 +381,58 @@ def test_twice_as_tall_signal_is_flagged_conservatively() -> None:
         assert all(abs(s.ppm - 128.9) < 0.05 and s.carbons == 2 for s in multi)
         flagged += len(multi)
     assert flagged >= 3
+
+
+def _scaled(ps: PeakSet, factor: float) -> PeakSet:
+    peaks = tuple(
+        Peak(
+            ppm=p.ppm,
+            height=p.height * factor,
+            area=p.area * factor,
+            snr=p.snr,
+            width_hz=p.width_hz,
+            lines=p.lines,
+            pattern=p.pattern,
+            j_hz=p.j_hz,
+            role=p.role,
+        )
+        for p in ps.peaks
+    )
+    return PeakSet(ps.experiment, peaks, ps.noise * abs(factor), None, ps.threshold_snr)
+
+
+@settings(max_examples=8, deadline=None)
+@given(
+    f90=st.floats(min_value=-3.0, max_value=3.0),
+    f135=st.floats(min_value=-3.0, max_value=3.0),
+    flip=st.booleans(),
+)
+def test_calls_do_not_depend_on_export_scale_or_stored_phase(
+    f90: float, f135: float, flip: bool
+) -> None:
+    # Invariant: an exported spectrum's intensity scale (with its noise) is arbitrary,
+    # and its stored phase may be inverted; the calls must not change (common practice).
+    base = {k: _scaled(v, 1.0) for k, v in _ESTRAGOLE_PEAKS.items()}
+    ref = classify(base, solvent="CDCl3")
+    changed = dict(base)
+    changed["dept90"] = _scaled(base["dept90"], 10.0**f90)
+    changed["dept135"] = _scaled(base["dept135"], (-1.0 if flip else 1.0) * 10.0**f135)
+    obs = classify(changed, solvent="CDCl3")
+    assert [s.multiplicity for s in obs.signals] == [s.multiplicity for s in ref.signals]
+    assert ("dept135" in obs.inverted) == flip
+
+
+_ESTRAGOLE_PEAKS = pick_all(synthesize(ESTRAGOLE, snr=60, seed=21))
+
+
+def test_inverted_dept90_and_carbon_plus_dept90_only() -> None:
+    spectra = synthesize(ESTRAGOLE, snr=60, invert=("dept90",), seed=22)
+    obs = classify(pick_all(spectra), solvent="CDCl3")
+    assert "dept90" in obs.inverted
+    _check_all(obs, ESTRAGOLE)
+    # carbon + DEPT-90 only: CH are told from the rest; CH2 vs CH3 vs C stay open
+    only = {k: v for k, v in pick_all(spectra).items() if k != "dept135"}
+    obs = classify(only, solvent="CDCl3")
+    for c in ESTRAGOLE:
+        s = nearest(obs.sample_signals, c.ppm, 0.1)
+        assert (s.multiplicity == "CH") == (c.multiplicity == "CH")
