@@ -373,7 +373,10 @@ def _aromatic(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> _Prediction | No
         n = max(r[1] for r in results)
         kind = max(r[2] for r in results)
         base_sd = (sd["benzene"], sd["aromatic_fused"], sd["hetero6"])[kind]
-        return _Prediction(ppm, math.hypot(base_sd, sd["per_increment"] * math.sqrt(n)), "aromatic")
+        ipso_sd = sd["ipso"] if _heavy(atom, *six[0]) else 0.0  # substituted carbon
+        return _Prediction(
+            ppm, math.hypot(base_sd, sd["per_increment"] * math.sqrt(n), ipso_sd), "aromatic"
+        )
     five = [r for r in own if len(r) == 5]
     if five:
         exo = _exo_double(mol, atom, five[0])
