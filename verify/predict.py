@@ -768,7 +768,13 @@ def _sp3(mol: Chem.Mol, atom: Chem.Atom, rings: _Rings) -> _Prediction:
         ppm += k["extra_group"] * (n_groups - 1)
     ppm += _steric(mol, atom, rings)
     ppm += _ring_correction(mol, atom, rings)
-    return _Prediction(ppm, math.hypot(sd["sp3"], sd["sp3_per_increment"] * math.sqrt(n)), "sp3")
+    branches = max(len(neighbours) - 1, 0)  # branching makes the sums less reliable
+    spread = math.hypot(
+        sd["sp3"],
+        sd["sp3_per_increment"] * math.sqrt(n),
+        sd["sp3_per_branch"] * branches,
+    )
+    return _Prediction(ppm, spread, "sp3")
 
 
 def _is_hetero(atom: Chem.Atom) -> bool:
