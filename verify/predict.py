@@ -1056,7 +1056,8 @@ def _carbonyl_type(
             return c["quinone"], False
         return c["ketone_diconj"], False
     if conj:
-        return c["ketone_conj"] + shift, False
+        ring_shift = c["ketone_conj_ring5"] if size == 5 else 0.0
+        return c["ketone_conj"] + shift + ring_shift, False
     if size is not None and str(size) in c["ketone_cyclic"]:
         return c["ketone_cyclic"][str(size)] + shift, False
     return c["ketone"] + shift, False
