@@ -9,6 +9,9 @@ same actual 1J(C,H) (120–200 Hz, delays set for 145 Hz), a common error of the
 DEPT pulse (−5°, 0, +5°) and a chosen SNR; the peaks are picked and classified.
 A carbon counts as right when the signal nearest its shift (within 0.1 ppm) carries
 its class.  Reported per condition: accuracy over carbons found, carbons missed, and
+With APT alone C/CH2 and CH/CH3 are told apart only by shift region and carbon height;
+without a carbon spectrum quaternary carbons cannot be seen (counted as missed).
+
 "residual → CH" (a CH2 or CH3 called CH; with DEPT-90 present these are DEPT-90 residuals
 and must stay at zero; without DEPT-90 they are CH3 read as CH from shift region and
 intensity, which the classifier reports with a lower confidence and both candidates).
@@ -69,7 +72,12 @@ def run(quick: bool, picker: str) -> None:
     thetas = (-5.0, 0.0, 5.0)
     snrs = (15.0, 20.0, 50.0, 200.0)
     per_cond = 2 if quick else 6
-    sets = {"with DEPT-90": ("carbon", "dept90", "dept135"), "DEPT-135 only": ("carbon", "dept135")}
+    sets = {
+        "with DEPT-90": ("carbon", "dept90", "dept135"),
+        "DEPT-135 only": ("carbon", "dept135"),
+        "APT": ("carbon", "apt"),
+        "DEPT-45/90/135, no carbon": ("dept45", "dept90", "dept135"),
+    }
     stats: dict[tuple[str, float, float], list[int]] = defaultdict(lambda: [0, 0, 0, 0, 0, 0])
     start = time.time()
     seed = 0

@@ -851,8 +851,9 @@ def classify(
     Observation
         One :class:`~verify.model.Signal` per carbon signal (solvent and artifact
         peaks included with their role), the mode (``full``, ``dept135``, ``apt``,
-        ``dept-series``, ``carbon-only``, ``edited-only``), inverted experiments and
-        notes.
+        ``dept-series``, ``carbon-only``, ``edited-only`` (edited spectra without a
+        carbon spectrum, not a full DEPT series) or ``partial`` (carbon with DEPT-90 or
+        DEPT-45 alone)), inverted experiments and notes.
 
     Raises
     ------
@@ -1016,7 +1017,7 @@ def _mode(experiments: Sequence[str]) -> str:
         if "apt" in has:
             return "apt"
         if has & {"dept45", "dept90"}:
-            return "edited-only"
+            return "partial"
         return "carbon-only"
     if len(has & {"dept45", "dept90", "dept135"}) >= 2:
         return "dept-series"
