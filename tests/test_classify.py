@@ -436,3 +436,16 @@ def test_inverted_dept90_and_carbon_plus_dept90_only() -> None:
     for c in ESTRAGOLE:
         s = nearest(obs.sample_signals, c.ppm, 0.1)
         assert (s.multiplicity == "CH") == (c.multiplicity == "CH")
+
+
+def test_summary_fragment_counts_flagged_carbons() -> None:
+    # Estragole C10H12O: 8 signals, two of them 2-carbon aromatic CH; protium on carbon
+    # 1 (=CH) + 2×1 + 2×1 (aromatic CH) + 2 (=CH2) + 2 (allyl CH2) + 3 (OCH3) = 12
+    obs = classify(pick_all(synthesize(ESTRAGOLE, snr=60, seed=2)), solvent="CDCl3")
+    text = format_observation(obs)
+    flagged = sum(s.carbons - 1 for s in obs.sample_signals)
+    n_h = 10 + sum(
+        (s.carbons - 1) * {"C": 0, "CH": 1, "CH2": 2, "CH3": 3}[s.multiplicity]
+        for s in obs.sample_signals
+    )
+    assert f"C{8 + flagged} H{n_h} on carbon" in text

@@ -1449,9 +1449,18 @@ def format_observation(obs: Observation) -> str:
         f"Sample signals: {len(sample)}  ({total}{f', unknown {unknown}' if unknown else ''})"
     )
     if sample and not unknown:
-        n_c = sum(s.carbons for s in sample)
-        n_h = sum(HYDROGENS[s.multiplicity] * s.carbons for s in sample if s.multiplicity)
-        lines.append(f"Carbon-bound hydrogens: {n_h}  → C{n_c} H{n_h} on carbon")
+        n_c = n_h = 0
+        for sig in sample:
+            if sig.mixed and len(sig.candidates) > 1:
+                # an overlap: count its candidate composition, one carbon per class
+                n_c += max(sig.carbons, len(sig.candidates))
+                n_h += sum(HYDROGENS[c] for c in sig.candidates)
+            elif sig.multiplicity is not None:
+                n_c += sig.carbons
+                n_h += HYDROGENS[sig.multiplicity] * sig.carbons
+        mixed = sum(1 for sig in sample if sig.mixed)
+        tail = f" (counting {mixed} overlapped signal(s) by their composition)" if mixed else ""
+        lines.append(f"Carbon-bound hydrogens: {n_h}  → C{n_c} H{n_h} on carbon{tail}")
     elif sample:
         lines.append(
             f"Carbons seen: {sum(s.carbons for s in sample)} (multiplicities not all measured)"
