@@ -132,9 +132,17 @@ def run(quick: bool, picker: str) -> None:
         good = [stats[(label, j, s)] for j in j_values if j <= 175 for s in snrs if s >= 20]
         r = sum(g[0] for g in good)
         f = sum(g[1] for g in good)
+        cand = sum(g[4] for g in good)
         print(
-            f"J 120–175, SNR ≥ 20: {100.0 * r / f:.2f} % of {f} carbons right; "
-            f"residual→CH {sum(g[3] for g in good)}\n"
+            f"J 120–175, SNR ≥ 20: {100.0 * r / f:.2f} % of {f} carbons right "
+            f"({100.0 * cand / f:.2f} % right or among the candidates); "
+            f"residual→CH {sum(g[3] for g in good)}"
+        )
+        allr = [stats[(label, j, s)] for j in j_values for s in snrs]
+        print(
+            f"all conditions: {100.0 * sum(g[0] for g in allr) / sum(g[1] for g in allr):.2f} % "
+            f"right; residual→CH {sum(g[3] for g in allr)}; single carbons flagged mixed "
+            f"{sum(g[5] for g in allr)}\n"
         )
 
 
