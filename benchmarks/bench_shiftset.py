@@ -398,8 +398,8 @@ def main() -> int:
                 atom = rec.mol.GetAtomWithIdx(a)
                 assert atom.GetAtomicNum() == 6, (rec.ident, a)
                 assert HYDROGENS[c.multiplicity] == min(3, protium(atom)) or "deuterated" in c.flags
-    for model in args.models.split(","):
-        run_model(records, exps, model.strip(), args.max_decoys, args.seed)
+    for model in filter(None, (m.strip() for m in args.models.split(","))):
+        run_model(records, exps, model, args.max_decoys, args.seed)
     if args.spectra:
         run_spectra(
             records,
