@@ -415,3 +415,14 @@ def test_minor_signal_can_hold_a_weak_carbon_for_review() -> None:
     v = judge(expect_predicted("CCOC(C)=O"), observe(peaks, extra=[minor]))
     assert v.verdict == "review", format_verdict(v)
     assert "minor-signal-assigned" in codes(v)
+
+
+def test_config_rejects_bad_thresholds() -> None:
+    from verify.errors import UsageError
+
+    with pytest.raises(UsageError, match="must be non-negative"):
+        VerdictConfig(overlap_cost=-1.0)
+    with pytest.raises(UsageError, match="confidence thresholds"):
+        VerdictConfig(confident=1.5)
+    with pytest.raises(UsageError, match="overlap_allowance_classes"):
+        VerdictConfig(overlap_allowance_classes=0)
