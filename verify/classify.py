@@ -369,7 +369,7 @@ def _build_rows(
                     peaks={e: p},
                     y={},
                     picked={},
-                    note=f"seen in {_NAMES[e]} but not picked in the {base_role} spectrum",
+                    note=f"not picked in the {base_role} spectrum",
                 )
             )
             base_peaks.append(Peak(ppm=p.ppm - offset, height=p.height, width_hz=p.width_hz))
@@ -550,7 +550,8 @@ def _core(
     y = data.y * sign[None, :]  # (N, E)
     dept = np.array([e != "apt" for e in data.edited])
     has_c = np.isfinite(data.hc)
-    hc = np.where(has_c, data.hc, 1.0)
+    # without a carbon peak, a typical carbon of the sample sets the amplitude unit
+    hc = np.where(has_c, data.hc, data.carbon_ref)
     # model amplitude per unit u: g_e · hC · R  → (B, N, 4, K, E)
     unit = scales[:, None, None, None, :] * (hc[:, None, None, None] * data.resp)[None]
     floor2 = (FLOOR * data.typical) ** 2  # (E,) raw units, like y
@@ -1201,7 +1202,10 @@ def _decide(
             f", nothing in the edited spectra: deuterated carbon, counted as C (no protium)"
         )
         conf = max(conf, 0.9)
-    if row.note:
+    if row.note.startswith("not picked"):
+        where = " and ".join(_NAMES[e] for e in data.edited if row.picked.get(e))
+        reason += f" (seen in {where} but {row.note})"
+    elif row.note:
         reason += f" ({row.note})"
     if len(candidates) <= 1:
         candidates = (mult,)

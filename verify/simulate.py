@@ -270,6 +270,9 @@ class SyntheticCarbon:
         Heteronuclear splittings that survive proton decoupling, e.g.
         ``(("19F", 245.0, 1),)`` for an aromatic C–F doublet or ``(("2H", 19.5, 3),)``
         for a CD3 septet.  19F/31P are spin ½, 2H spin 1.
+    amount : float
+        Relative concentration of the compound the carbon belongs to (1 for the sample,
+        e.g. 0.05 for a 5 mol-% impurity); scales all its heights.
 
     """
 
@@ -280,8 +283,11 @@ class SyntheticCarbon:
     width_hz: float = 1.0
     label: str = ""
     couplings: tuple[tuple[str, float, int], ...] = ()
+    amount: float = 1.0
 
     def __post_init__(self) -> None:
+        if not self.amount > 0:
+            raise UsageError(f"amount must be positive, got {self.amount}")
         if self.multiplicity not in HYDROGENS:
             raise UsageError(f"unknown multiplicity {self.multiplicity!r}; use C, CH, CH2 or CH3")
         if self.carbons < 1:
@@ -446,13 +452,19 @@ def synthesize(
         heights = []
         for c, w_noe, w_tr in zip(carbons, noe, transfer, strict=True):
             if role == "carbon":
-                amp = w_noe * c.carbons
+                amp = w_noe * c.carbons * c.amount
             elif role == "apt":
-                amp = w_noe * c.carbons * apt_intensity(c.n_h, c.coupling_j_hz, 1.0 / j_set_hz)
+                amp = (
+                    w_noe
+                    * c.carbons
+                    * c.amount
+                    * apt_intensity(c.n_h, c.coupling_j_hz, 1.0 / j_set_hz)
+                )
             else:
                 amp = (
                     w_tr
                     * c.carbons
+                    * c.amount
                     * edited_response(
                         role,
                         c.n_h,
