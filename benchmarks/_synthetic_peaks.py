@@ -12,7 +12,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 
 from verify.model import Peak, PeakSet, Spectrum
-from verify.simulate import SOLVENT_CARBONS, canonical_solvent
+from verify.simulate import canonical_solvent, solvent_carbons
 
 
 def tiny_pick(
@@ -27,7 +27,7 @@ def tiny_pick(
     )
     peaks = []
     name = canonical_solvent(solvent) if solvent else None
-    solvent_ppm = [c[0] for c in SOLVENT_CARBONS.get(name or "", ())]
+    solvent_ppm = [c[0] for c in solvent_carbons(name)] if name else []
     groups: dict[float, list[Peak]] = {}
     for i in cand:
         if np.sign(y[i - 1]) != np.sign(y[i]) or np.sign(y[i + 1]) != np.sign(y[i]):

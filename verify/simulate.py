@@ -43,8 +43,10 @@ __all__ = [
     "SOLVENT_CARBONS",
     "SyntheticCarbon",
     "apt_intensity",
+    "canonical_solvent",
     "dept_intensity",
     "edited_response",
+    "solvent_carbons",
     "synthesize",
     "typical_j_hz",
     "write_sample",
@@ -58,7 +60,8 @@ EDITED_EXPERIMENTS: tuple[str, ...] = ("dept45", "dept90", "dept135", "apt")
 #: Carbon multiplets of the common deuterated solvents: (shift ppm, deuterons on the
 #: carbon, 1J(C,D) Hz).  Shifts and multiplicities from Fulmer et al., Organometallics
 #: 2010, 29, 2176 (Table 2); the C–D couplings are the usual textbook values (from
-#: memory).  Used when ``verify/data/solvents.toml`` does not provide them.
+#: memory).  ``verify/data/solvents.toml`` (the referencing stage's table) takes
+#: precedence when present.
 SOLVENT_CARBONS: Mapping[str, tuple[tuple[float, int, float], ...]] = {
     "CDCl3": ((77.16, 1, 32.0),),
     "DMSO-d6": ((39.52, 3, 21.0),),
@@ -324,14 +327,57 @@ def _multiplet(couplings: Sequence[tuple[str, float, int]]) -> list[tuple[float,
     return sorted(lines.items())
 
 
-def _solvent_carbons(solvent: str) -> tuple[tuple[float, int, float], ...]:
+@lru_cache(maxsize=1)
+def _solvent_table() -> tuple[dict[str, tuple[tuple[float, int, float], ...]], dict[str, str]]:
+    """Solvent carbons and name aliases.
+
+    From ``verify/data/solvents.toml`` when it is there (shared with the referencing
+    stage), else the built-in :data:`SOLVENT_CARBONS`.
+    """
+    table = dict(SOLVENT_CARBONS)
+    aliases = dict(_SOLVENT_ALIASES)
+    try:
+        text = resources.files("verify").joinpath("data/solvents.toml").read_text("utf-8")
+    except (FileNotFoundError, OSError):
+        return table, aliases
+    for name, entry in tomllib.loads(text).items():
+        if not isinstance(entry, dict) or "signals" not in entry:
+            continue
+        table[name] = tuple(
+            (float(sig["ppm"]), int(sig.get("deuterium", 0)), float(sig.get("j_hz", 0.0)))
+            for sig in entry["signals"]
+        )
+        for alias in entry.get("names", ()):
+            aliases[str(alias).strip().lower()] = name
+        aliases[name.lower()] = name
+    return table, aliases
+
+
+def solvent_carbons(solvent: str) -> tuple[tuple[float, int, float], ...]:
+    """Carbon signals of a deuterated solvent: (ppm, deuterons, 1J(C,D) in Hz) each.
+
+    Parameters
+    ----------
+    solvent : str
+        Solvent name as a user or file writes it.
+
+    Raises
+    ------
+    UsageError
+        When the solvent is unknown.
+
+    References
+    ----------
+    Fulmer et al., Organometallics 2010, 29, 2176 (shifts, multiplicities).
+    """
     name = canonical_solvent(solvent)
     if name is None:
-        raise UsageError(
-            f"no carbon data for solvent {solvent!r}; "
-            f"use one of {', '.join(SOLVENT_CARBONS)} or None"
-        )
-    return SOLVENT_CARBONS[name]
+        known = ", ".join(_solvent_table()[0])
+        raise UsageError(f"no carbon data for solvent {solvent!r}; use one of {known} or None")
+    return _solvent_table()[0][name]
+
+
+_solvent_carbons = solvent_carbons
 
 
 def canonical_solvent(name: str | None) -> str | None:
@@ -341,13 +387,13 @@ def canonical_solvent(name: str | None) -> str | None:
     ----------
     name : str or None
         The solvent as written by a user or a file.
-
     """
     if name is None:
         return None
-    if name in SOLVENT_CARBONS:
+    table, aliases = _solvent_table()
+    if name in table:
         return name
-    return _SOLVENT_ALIASES.get(name.strip().lower())
+    return aliases.get(name.strip().lower())
 
 
 def synthesize(
