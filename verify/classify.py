@@ -1307,6 +1307,10 @@ def _carbon_hints(signals: list[Signal], mode: str) -> list[Signal]:
         )
         for pos, k in enumerate(members):
             others = np.delete(heights, pos)
+            if mult is None:
+                # unknown classes mix weak quaternary with protonated carbons: compare
+                # with the taller half only
+                others = others[others >= np.median(others)]
             ratio = heights[pos] / float(np.median(others))
             if ratio < 1.8:
                 continue
@@ -1315,15 +1319,15 @@ def _carbon_hints(signals: list[Signal], mode: str) -> list[Signal]:
                 med = float(np.median(ed_others))
                 if not med > 0 or edited_vals[pos] / med < 1.6:
                     continue
-            n = int(min(4, round(ratio)))
+            n = int(min(4 if mult is not None else 3, round(ratio)))
             s = out[k]
-            cls = mult or "other"
+            cls = f"{mult} " if mult else ""
             out[k] = Signal(
                 **{
                     **_signal_fields(s),
                     "carbons": n,
                     "reason": s.reason
-                    + f"; {ratio:.1f}× the median height of the other {cls} signals: possibly {n} "
+                    + f"; {ratio:.1f}× the median height of the other {cls}signals: possibly {n} "
                     "equivalent carbons (heights vary with NOE and relaxation)",
                 }
             )
