@@ -426,3 +426,29 @@ def test_config_rejects_bad_thresholds() -> None:
         VerdictConfig(confident=1.5)
     with pytest.raises(UsageError, match="overlap_allowance_classes"):
         VerdictConfig(overlap_allowance_classes=0)
+
+
+# BHT in CDCl3, Gottlieb 1997 Table 2 (from memory).
+BHT = [
+    (151.55, "C", 1),
+    (135.87, "C", 2),
+    (128.27, "C", 1),
+    (125.55, "CH", 2),
+    (34.25, "C", 2),
+    (30.33, "CH3", 6),
+    (21.20, "CH3", 1),
+]
+
+
+def test_missing_quaternaries_fail_only_when_quaternaries_are_strong() -> None:
+    smiles = "Cc1cc(C(C)(C)C)c(O)c(C(C)(C)C)c1"
+    lost = [p for p in BHT if p[0] not in (151.55, 128.27)]  # two quaternary lines missing
+    assert judge(expect(smiles), observe(BHT)).verdict == "pass"
+    # The two quaternary lines seen at SNR 42 (2 carbons × 0.35 × 60): two more missing
+    # quaternary carbons are not explained by noise.
+    strong = judge(expect(smiles), observe(lost, snr=60.0))
+    assert strong.verdict == "fail", format_verdict(strong)
+    # Seen at SNR 17.5 instead, losing two of them is a matter for review.
+    weak = judge(expect(smiles), observe(lost, snr=25.0))
+    assert weak.verdict == "review", format_verdict(weak)
+    assert any("quaternary signals seen are weak" in f.message for f in weak.findings)

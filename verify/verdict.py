@@ -18,7 +18,8 @@ count-mismatch-<M>       fail/rev per multiplicity M (C, CH, CH2, CH3, or ``sign
                                   signal nothing explains.  fail for a missing protonated
                                   carbon, a strong unexplained peak, more unsupported
                                   overlaps than the size allowance, more missing quaternary
-                                  carbons than allowed; otherwise review
+                                  carbons than allowed while the quaternary signals seen
+                                  are strong; otherwise review
 multiplicity-unexplained fail/rev an unexplained signal whose confident call fits no class
                                   of the structure at all (review when weak)
 multiplicity-mismatch    fail/rev an assigned signal whose call contradicts its class
@@ -387,7 +388,8 @@ def judge(
             # Each extra class beyond the first (and beyond partner pairs) is one overlap.
             held = sorted(a.classes, key=lambda k: -classes[k].carbons)
             for k in held[1:]:
-                n_unsupported += 1
+                if HYDROGENS[classes[k].multiplicity] > 0:
+                    n_unsupported += 1  # quaternary ones count with the missing quaternaries
                 unsupported_items[classes[k].multiplicity].append((classes[k].label, k))
     if low_conf:
         fx.add(
@@ -404,11 +406,19 @@ def judge(
     overlap_sev = "fail" if n_unsupported > allowance else "review"
     missing = [k for k in range(len(classes)) if k not in sig_of_class]
     missing_q = [k for k in missing if HYDROGENS[classes[k].multiplicity] == 0]
+    # Quaternary carbons without a signal of their own: missing or in unsupported overlaps.
+    q_deficit = len(missing_q) + len(unsupported_items["C"])
     heights = [
         sigs[j].height / max(1, carbons_of.get(j, 1)) for j in assigned if sigs[j].height > 0
     ]
     ref_height = median(heights) if heights else None
     weak_data = bool(snrs) and median(snrs) < cfg.min_sample_snr
+    # Quaternary carbons are the first to vanish: judge their absence by how weak the
+    # quaternary signals that were seen are (none seen: as weak as can be).
+    q_snrs = [sigs[j].snr for j in sample if sigs[j].multiplicity == "C" and sigs[j].snr > 0]
+    q_weak = weak_data or (
+        q_deficit > 0 and (not q_snrs or median(q_snrs) < cfg.weak_quaternary_snr)
+    )
 
     def is_weak(j: int) -> bool:
         s = sigs[j]
@@ -446,11 +456,16 @@ def judge(
                     f"{_carbon(cls)} has no signal of its own; it may lie "
                     f"under the solvent signal at {_ppm(hidden)}"
                 )
-            elif HYDROGENS[cls.multiplicity] == 0 and len(missing_q) <= cfg.max_missing_quaternary:
+            elif HYDROGENS[cls.multiplicity] == 0 and (
+                q_weak or q_deficit <= cfg.max_missing_quaternary
+            ):
                 sevs.append("review")
-                parts.append(
-                    f"the quaternary {cls.label} has no signal (quaternary carbons are often weak)"
+                why = (
+                    f"the quaternary signals seen are weak, median SNR {median(q_snrs):.0f}"
+                    if q_weak and q_snrs
+                    else "quaternary carbons are often weak"
                 )
+                parts.append(f"the quaternary {cls.label} has no signal ({why})")
             else:
                 sevs.append("review" if weak_data else "fail")
                 parts.append(f"{_carbon(cls)} has no signal")
@@ -463,7 +478,11 @@ def judge(
                     f"signal at {_ppm(hidden)}"
                 )
                 continue
-            sevs.append(overlap_sev)
+            if HYDROGENS[classes[k].multiplicity] == 0:
+                ok = q_weak or q_deficit <= cfg.max_missing_quaternary
+                sevs.append("review" if ok else "fail")
+            else:
+                sevs.append(overlap_sev)
             parts.append(
                 f"{_carbon(classes[k])} has no signal of its own "
                 "(it would have to coincide with another carbon on a signal no taller than one)"
