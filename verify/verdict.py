@@ -19,7 +19,8 @@ count-mismatch-<M>       fail/rev per multiplicity M (C, CH, CH2, CH3, or ``sign
                                   carbon, a strong unexplained peak, more unsupported
                                   overlaps than the size allowance, more missing quaternary
                                   carbons than allowed while the quaternary signals seen
-                                  are strong; otherwise review
+                                  are strong; otherwise review (also when the carbon may
+                                  lie under a solvent signal near its predicted shift)
 multiplicity-unexplained fail/rev an unexplained signal whose confident call fits no class
                                   of the structure at all (review when weak)
 multiplicity-mismatch    fail/rev an assigned signal whose call contradicts its class
@@ -53,6 +54,11 @@ mostly-impurity          fail     impurities amount to most of the sample by pea
 solvent-signal           info     the NMR solvent's own carbon signal
 data-note                info     a note of the classifier about the data as a whole
 ======================== ======== ==========================================================
+
+Impurity peaks: the left-over signals are matched against the impurity table; and since
+the plain assignment may hand an impurity's line to a class (toluene's CH3 class taking
+ethyl acetate's 21.04), each compound recognisable among all signals is also tried as an
+exclusion and kept when it lowers the total cost (:func:`_explain`).
 
 :attr:`Verdict.score` is minus the total assignment cost (missing classes, unexplained
 peaks, overlaps, and a small charge per impurity signal included): it is comparable between
