@@ -117,6 +117,8 @@ def run(quick: bool, picker: str) -> None:
                             st[3] += int(
                                 c.multiplicity in ("CH2", "CH3") and s.multiplicity == "CH"
                             )
+                            st[4] += int(c.multiplicity in (s.candidates or (s.multiplicity,)))
+                            st[5] += int(s.mixed)
     elapsed = time.time() - start
     print(f"{seed} simulated samples in {elapsed:.0f} s (θ errors {thetas} pooled)\n")
     for label in sets:
