@@ -15,6 +15,15 @@ without a carbon spectrum quaternary carbons cannot be seen (counted as missed).
 "residual → CH" (a CH2 or CH3 called CH; with DEPT-90 present these are DEPT-90 residuals
 and must stay at zero; without DEPT-90 they are CH3 read as CH from shift region and
 intensity, which the classifier reports with a lower confidence and both candidates).
+
+Last full run (2026-12-02, tiny picker, 1728 samples, 6 per condition, θ pooled):
+- carbon + DEPT-90 + DEPT-135, J 120–175 Hz, SNR ≥ 20: 99.85 % of 2757 carbons right,
+  no residual called CH; all conditions incl. SNR 15 and J 200 Hz: 95.2 %.  J = 200 Hz
+  for every carbon (unphysical for CH2/CH3) is the weak spot: 60–93 %, with DEPT-135
+  sign confusions.
+- carbon + DEPT-135: 91.1 % right, 96.3 % right or among the candidates (CH vs CH3).
+- carbon + APT: 85.3 % right, 99.96 % right or among the candidates (C/CH2, CH/CH3).
+- DEPT-45/90/135 without carbon: 99.8 % of the protonated carbons right.
 """
 
 from __future__ import annotations
