@@ -718,14 +718,24 @@ def _fit_globals(
         elif np.any(strong):
             val = float(np.median(np.abs(data.y[strong, k]))) / float(data.carbon_ref)
         else:
-            val = 1.0
-        start[k] = val if val > 0 else 1.0
+            val = math.nan  # nothing strong here: set from the noise below
+        start[k] = val if val > 0 else math.nan
         vals = data.y[strong, k]
         if e == "dept45" and vals.size:
             # at 45° every CHn is positive whatever J is: the majority sign is the phase
             fixed_sign[k] = 1.0 if float(np.sum(vals)) >= 0 else -1.0
         else:
             free.append(k)
+    # an experiment without strong peaks (a DEPT-90 of a sample without CH) starts where
+    # the scale prior puts it: the same SNR per unit response as a DEPT with peaks
+    known = [k for k in range(e_count) if np.isfinite(start[k])]
+    for k in range(e_count):
+        if not np.isfinite(start[k]):
+            if known and data.sigma.shape[0]:
+                ref = known[0]
+                start[k] = start[ref] * float(data.sigma[0, k] / data.sigma[0, ref])
+            else:
+                start[k] = 1.0
     # without a carbon spectrum the first edited experiment fixes the amplitude unit
     base = -1 if np.any(has_c) else 0
     best_total = math.inf
