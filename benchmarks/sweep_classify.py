@@ -18,12 +18,14 @@ intensity, which the classifier reports with a lower confidence and both candida
 
 Last full run (2026-12-02, tiny picker, 1728 samples, 6 per condition, θ pooled):
 - carbon + DEPT-90 + DEPT-135, J 120–175 Hz, SNR ≥ 20: 99.85 % of 2757 carbons right,
-  no residual called CH; all conditions incl. SNR 15 and J 200 Hz: 95.2 %.  J = 200 Hz
+  no residual called CH (4 at SNR 15, J 175, in one sample without any CH whose
+  DEPT-135 phase was misread); all conditions incl. SNR 15 and J 200 Hz: 95.2 %.  J = 200 Hz
   for every carbon (unphysical for CH2/CH3) is the weak spot: 60–93 %, with DEPT-135
   sign confusions.
 - carbon + DEPT-135: 91.1 % right, 96.3 % right or among the candidates (CH vs CH3).
 - carbon + APT: 85.3 % right, 99.96 % right or among the candidates (C/CH2, CH/CH3).
-- DEPT-45/90/135 without carbon: 99.8 % of the protonated carbons right.
+- DEPT-45/90/135 without carbon: 100 % of the protonated carbons right at J 120–175 Hz,
+  SNR ≥ 20 (99.8 % over all conditions).
 """
 
 from __future__ import annotations
