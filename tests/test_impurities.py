@@ -119,13 +119,20 @@ def test_unknown_solvent_uses_wider_tentative_match() -> None:
     found = identify(o, range(4), None)
     assert [f.name for f in found] == ["ethyl acetate"]
     assert "tentative" in found[0].source
-    # With the solvent known the 0.3 ppm error is too large.
-    assert identify(o, range(4), "CDCl3") == ()
+    # With the solvent known, 0.3 ppm errors are too large when the lines do not move
+    # together (a common offset of the whole pattern is allowed: see the toluene test).
+    scattered = obs(
+        *[sig(p + d, m) for (p, m), d in zip(ETOAC_CDCL3, (0.3, -0.3, 0.3, -0.3), strict=True)],
+        solvent=None,
+    )
+    assert "ethyl acetate" not in [f.name for f in identify(scattered, range(4), "CDCl3")]
     # ... unless the axis was not referenced.
     o2 = obs(*[sig(p + 0.25, m) for p, m in ETOAC_CDCL3], method="none")
     assert [f.name for f in identify(o2, range(4), "CDCl3")] == ["ethyl acetate"]
-    # A tolerance set by the caller is honoured.
-    assert identify(o2, range(4), "CDCl3", rules=MatchRules(unreferenced_tolerance_ppm=0.1)) == ()
+    # Tolerances set by the caller are honoured (the line tolerance and the window for a
+    # common offset of the whole pattern).
+    strict = MatchRules(unreferenced_tolerance_ppm=0.1, common_offset_ppm=0.0)
+    assert identify(o2, range(4), "CDCl3", rules=strict) == ()
 
 
 def test_only_unassigned_signals_are_considered() -> None:
@@ -201,3 +208,36 @@ def test_table_rows_agree_with_rdkit(entry: object) -> None:
         expected[("CH3", 1)] += 2
         expected = +expected
     assert table == expected
+
+
+# Toluene in CDCl3 (Fulmer et al. 2010 Table 2, from memory): 137.89 C, 129.07 CH,
+# 128.26 CH, 125.33 CH, 21.46 CH3.
+TOLUENE_CDCL3 = [(137.89, "C"), (129.07, "CH"), (128.26, "CH"), (125.33, "CH"), (21.46, "CH3")]
+
+
+def test_impurity_lines_moved_together_are_still_recognised() -> None:
+    # The measured 1-(4-fluorophenyl)ethylamine sample (shared data) shows its toluene
+    # lines about 0.33 ppm below the table once the axis is set on CDCl3: every line
+    # moves together, so the pattern is still toluene.
+    shifted = [sig(p - 0.33, m, height=2.0) for p, m in TOLUENE_CDCL3]
+    o = obs(sig(50.3, "CH"), sig(25.6, "CH3"), *shifted)
+    found = identify(o, idx(o, *[p - 0.33 for p, _ in TOLUENE_CDCL3]), "CDCl3")
+    assert [f.name for f in found] == ["toluene"]
+    assert len(found[0].signals) == 5
+
+
+def test_lines_scattered_beyond_the_tolerance_are_not_an_impurity() -> None:
+    # The same lines moved by different amounts (±0.3 ppm) do not keep toluene's pattern.
+    moves = [0.3, -0.3, 0.3, -0.3, 0.3]
+    scattered = [sig(p + d, m) for (p, m), d in zip(TOLUENE_CDCL3, moves, strict=True)]
+    o = obs(sig(50.3, "CH"), *scattered)
+    found = identify(o, idx(o, *[s.ppm for s in scattered]), "CDCl3")
+    assert "toluene" not in [f.name for f in found]
+
+
+def test_a_single_line_gets_no_common_offset() -> None:
+    # Dichloromethane (one CH2, 53.52 in CDCl3; Gottlieb 1997, from memory) 0.3 ppm off
+    # is not dichloromethane: one line cannot show a common offset.
+    o = obs(sig(128.5, "CH"), sig(53.22, "CH2"))
+    found = identify(o, idx(o, 53.22), "CDCl3")
+    assert "dichloromethane" not in [f.name for f in found]

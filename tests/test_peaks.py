@@ -226,6 +226,42 @@ def test_fluorine_coupled_carbons_group_onto_the_decoupled_shifts(spectra_dir):
         assert lo <= cf.j_hz <= hi and len(cf.lines) == 2
 
 
+def test_weak_doublet_around_a_tall_line_is_a_decoupling_residue():
+    # Incomplete 19F decoupling leaves a tall singlet and a weak copy of its 1J C–F
+    # doublet (~245 Hz, from memory) centred on it: one carbon, not two (common practice).
+    j1 = 245.0 / MHZ
+    lines = [(161.4, 400.0), (161.4 + j1 / 2, 20.0), (161.4 - j1 / 2, 20.0), (25.6, 300.0)]
+    s = spectrum(lines, noise=1.0)
+    peaks = _sample(pick_peaks(s, "carbon", hetero=frozenset({"19F"})))
+    assert [round(p.ppm, 2) for p in peaks] == [161.4, 25.6]
+    assert all(p.pattern is None for p in peaks)
+
+
+def test_real_c_f_doublet_with_a_small_line_at_its_centre_stays_grouped():
+    # The other way round: a genuine doublet keeps its grouping when a line at its
+    # centre is weaker than its own lines (no residue).
+    j1 = 245.0 / MHZ
+    lines = [(161.4 + j1 / 2, 60.0), (161.4 - j1 / 2, 60.0), (161.4, 30.0)]
+    s = spectrum(lines, noise=1.0)
+    peaks = _sample(pick_peaks(s, "carbon", hetero=frozenset({"19F"})))
+    assert any(p.pattern == "C-F" and abs(p.ppm - 161.4) < 0.01 for p in peaks)
+
+
+@pytest.mark.shared
+def test_fluorine_decoupled_spectrum_gives_each_carbon_once(spectra_dir):
+    # 1-(4-fluorophenyl)ethylamine, 13C{1H,19F}: the C–F carbon near 161.4 ppm is one
+    # signal even though weak residual doublet lines remain (measured file, shared data).
+    from verify.reference import reference_sample
+
+    s = _carbon(spectra_dir / "fluoromethylbenzylamine/13c-1h19f-dec.dx")
+    out, ref = reference_sample({"carbon": s}, "CDCl3")
+    ps = pick_peaks(
+        out["carbon"], "carbon", solvent="CDCl3", hetero=frozenset({"19F"}), referencing=ref
+    )
+    near = [p for p in _sample(ps) if abs(p.ppm - 161.4) < 1.5]
+    assert len(near) == 1 and near[0].pattern is None
+
+
 @pytest.mark.shared
 @pytest.mark.parametrize(
     ("rel", "negative"),

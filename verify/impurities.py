@@ -215,12 +215,23 @@ class MatchRules:
         used, and medium effects on carbon shifts are mostly below 0.5 ppm but reach
         ~1-2 ppm for polar groups (compare the columns of Gottlieb 1997), so matches
         made this way are tentative.
+    common_offset_ppm : float
+        A compound whose lines all sit off the table by one common amount up to this
+        (ppm) still matches when each line keeps within the line tolerance of that
+        common offset: a concentrated or differently referenced sample moves every line
+        of a small molecule together (a measured 1-(4-fluorophenyl)ethylamine sample in
+        CDCl3 shows its toluene lines 0.3 ppm low once the axis is set on the solvent).
+    common_offset_lines : int
+        Lines that must be found before a common offset is accepted; a pattern of three
+        lines or more moving together is hard to meet by chance, a single line is not.
 
     """
 
     tolerance_ppm: float = 0.15
     unreferenced_tolerance_ppm: float = 0.3
     other_solvent_tolerance_ppm: float = 0.5
+    common_offset_ppm: float = 0.5
+    common_offset_lines: int = 3
 
 
 @cache
@@ -287,14 +298,58 @@ def _required(lines: Sequence[ImpurityLine], found: Sequence[bool]) -> bool:
     return sum(found) >= max(1, math.ceil(len(lines) / 2))
 
 
+def _match_shifted(
+    entry: ImpurityEntry,
+    column: str,
+    tol: float,
+    signals: Sequence[Signal],
+    free: Sequence[int],
+    rules: MatchRules,
+) -> tuple[list[int | None], float] | None:
+    """Match with one common offset of all lines (see ``MatchRules.common_offset_ppm``).
+
+    Every compatible (line, signal) pair within the offset window proposes an offset;
+    the one that matches most lines, then with the smallest residual error, is kept.
+    """
+    lines = [ln for ln in entry.lines if column in ln.shifts]
+    if len(lines) < rules.common_offset_lines:
+        return None
+    offsets = sorted(
+        {
+            round(signals[i].ppm - ln.shifts[column], 3)
+            for ln in lines
+            for i in free
+            if abs(signals[i].ppm - ln.shifts[column]) <= rules.common_offset_ppm
+            and _compatible(ln, signals[i])
+        }
+    )
+    best: tuple[int, float, list[int | None]] | None = None
+    for off in offsets:
+        got = _match_entry(entry, column, tol, signals, free, offset=off)
+        if got is None:
+            continue
+        picks, err = got
+        found = sum(p is not None for p in picks)
+        if found < rules.common_offset_lines:
+            continue
+        if best is None or (-found, err) < (-best[0], best[1]):
+            best = (found, err, picks)
+    return None if best is None else (best[2], best[1] + 1.0)  # shifted matches rank later
+
+
 def _match_entry(
     entry: ImpurityEntry,
     column: str,
     tol: float,
     signals: Sequence[Signal],
     free: Sequence[int],
+    *,
+    offset: float = 0.0,
 ) -> tuple[list[int | None], float] | None:
-    """Best line → signal matching of one compound, or None when it is not there."""
+    """Best line → signal matching of one compound, or None when it is not there.
+
+    `offset` (ppm) is added to every table shift before comparing.
+    """
     lines = [ln for ln in entry.lines if column in ln.shifts]
     if not lines:
         return None
@@ -306,7 +361,7 @@ def _match_entry(
         for i in free:
             if i in used:
                 continue
-            d = abs(signals[i].ppm - ln.shifts[column])
+            d = abs(signals[i].ppm - ln.shifts[column] - offset)
             if d <= tol and _compatible(ln, signals[i]) and (best is None or (d, i) < best):
                 best = (d, i)
         if best is None:
@@ -430,6 +485,8 @@ def identify(
                 got = _match_entry(entry, col, rules.tolerance_ppm * 2, signals, patterned)
         else:
             got = _match_entry(entry, column, tol, signals, free)
+            if got is None:
+                got = _match_shifted(entry, column, tol, signals, free, rules)
         if got is not None:
             picks, err = got
             found = sum(p is not None for p in picks)

@@ -36,7 +36,7 @@ Noise: see :func:`estimate_noise`.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import replace
 
 import numpy as np
@@ -215,6 +215,10 @@ def pick_peaks(
         if nucleus not in hetero:
             continue
         for group, j in _coupled_groups(lines, roles, used, nucleus, hz_per_point, sigma):
+            if _decoupling_residue(lines, used, group):
+                for i in group:
+                    roles[i] = "artifact"
+                continue
             used.update(group)
             members = [lines[i] for i in group]
             pattern = _PATTERN_NAME[nucleus]
@@ -477,6 +481,35 @@ def _merge(
         pattern=pattern,
         role=role,
     )
+
+
+def _decoupling_residue(lines: list[Line], used: set[int], group: Sequence[int]) -> bool:
+    """Tell whether a coupled multiplet is the residue of one carbon's decoupled line.
+
+    With heteronuclear decoupling that is not quite complete (e.g. 19F decoupling
+    over a wide offset range), a carbon shows a tall singlet and, around it, a weak
+    copy of its coupled multiplet.  When a line of the same sign at least three times
+    taller than every line of the multiplet sits at the multiplet's centre (within two
+    line widths), the multiplet belongs to that carbon and is not a carbon of its own.
+    Three times: a real coupled carbon's multiplet lines are each as tall as or taller
+    than any accidental line at its centre would need to be to hide it (common
+    practice of reading decoupled spectra, no tabulated source).
+    """
+    members = [lines[i] for i in group]
+    centre = float(np.mean([ln.pos for ln in members]))
+    top = max(abs(ln.height) for ln in members)
+    sign = np.sign(members[0].height)
+    reach = 2.0 * max(ln.width for ln in members)
+    for i, ln in enumerate(lines):
+        if i in used or i in group:
+            continue
+        if (
+            abs(ln.pos - centre) <= reach
+            and np.sign(ln.height) == sign
+            and abs(ln.height) >= 3.0 * top
+        ):
+            return True
+    return False
 
 
 def _solvent_group(
