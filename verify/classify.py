@@ -417,6 +417,7 @@ class _Data:
     apt_only: npt.NDArray[np.bool_]  # (N,) no carbon peak and no DEPT evidence of protium
     carbon_ref: float  # median carbon height (for relative evidence without a carbon peak)
     theta_of_k: npt.NDArray[np.int64]  # (K,) index into _THETA_ERR of each grid point
+    list_only: tuple[bool, ...] = ()  # per experiment: a peak list without a spectrum
 
 
 def _prepare(
@@ -492,6 +493,7 @@ def _prepare(
         apt_only,
         carbon_ref,
         np.tile(np.arange(_THETA_ERR.size), _J_OFFSETS.size),
+        tuple(peaksets[e].spectrum is None for e in edited),
     )
 
 
@@ -1218,7 +1220,12 @@ def _decide(
         conf = min(conf, 0.5)
     mult: Multiplicity = MULTIPLICITIES[m_best]
     unit = "of carbon height" if has_c else "of a typical carbon's height"
-    words = [_word(e, evidence[e], present[e], unit) for e in data.edited]
+    words = [
+        f"no peak listed in {_NAMES[e]}"
+        if (data.list_only and data.list_only[k] and not row.picked.get(e))
+        else _word(e, evidence[e], present[e], unit)
+        for k, e in enumerate(data.edited)
+    ]
     words = _refine_words(words, data, i, sign, scale, fit, m_best, present, evidence)
     if len(candidates) > 1 and not mixed:
         alts = [c for c in candidates if c != mult]
