@@ -115,6 +115,15 @@ class VerdictConfig:
         (accidental coincidences grow with molecular size); more is a fail.  6: on the
         nmrshiftdb2-derived benchmark it turns true-structure fails from 1.4 % to 1.1 %
         while same-formula decoys with another CHn inventory still fail at 99.5 %.
+    implausible_overlap_sd : float
+        An unsupported overlap fails when the coinciding carbon's predicted shift is
+        more than this many prediction SDs from the signal it would share: with the
+        predictor's SDs calibrated to ~93 % coverage at 2 SD on the nmrshiftdb2-derived
+        set, fewer than ~3 % of true carbons lie beyond 3 SD, while a homologue's extra
+        CH2 forced onto a neighbour's signal typically lies 4–10 SD away.
+    min_prediction_sd : float
+        Floor in ppm on a prediction SD used in that test, so that a very confident
+        prediction does not turn a 1–2 ppm coincidence into a fail.
     max_missing_quaternary : int
         Missing quaternary classes up to this number are review, beyond it fail (unless
         the quaternary signals are weak, see ``weak_quaternary_snr``).
@@ -168,6 +177,8 @@ class VerdictConfig:
     weak_extra_ratio: float = 0.3
     min_sample_snr: float = 10.0
     overlap_allowance_classes: int = 6
+    implausible_overlap_sd: float = 3.0
+    min_prediction_sd: float = 1.5
     max_missing_quaternary: int = 1
     weak_quaternary_snr: float = 20.0
     impurity_review_mol_percent: float = 2.0

@@ -280,6 +280,8 @@ def judge(
             )
     low_conf: list[int] = []
     n_unsupported = 0
+    unsupported_at: dict[int, float] = {}  # class → shift of the signal it would share
+    unsupported_group: dict[int, tuple[CarbonClass, ...]] = {}  # … and every class on it
     unsupported_items: dict[str, list[tuple[str, int]]] = {m: [] for m in MULTIPLICITIES}
     for a in assignment:
         s = sigs[a.signal]
@@ -397,6 +399,8 @@ def judge(
                 if HYDROGENS[classes[k].multiplicity] > 0:
                     n_unsupported += 1  # quaternary ones count with the missing quaternaries
                 unsupported_items[classes[k].multiplicity].append((classes[k].label, k))
+                unsupported_at[k] = s.ppm
+                unsupported_group[k] = tuple(classes[m] for m in a.classes)
     if low_conf:
         fx.add(
             "low-confidence",
@@ -482,6 +486,16 @@ def judge(
                 parts.append(
                     f"{classes[k].label} has no signal of its own; it may lie under the solvent "
                     f"signal at {_ppm(hidden)}"
+                )
+                continue
+            far = _implausible_coincidence(unsupported_group.get(k, ()), unsupported_at.get(k), cfg)
+            if far is not None:
+                z, worst = far
+                sevs.append("fail")
+                parts.append(
+                    f"{_carbon(classes[k])} has no signal of its own; sharing the signal at "
+                    f"{_ppm(unsupported_at[k])} would put {worst.label} {z:.1f} SD from its "
+                    f"predicted shift ({worst.predicted_ppm:.1f} ppm)"
                 )
                 continue
             if HYDROGENS[classes[k].multiplicity] == 0:
@@ -579,6 +593,36 @@ def judge(
         impurities=impurities,
         score=round(-cost, 3),
     )
+
+
+def _implausible_coincidence(
+    group: Sequence[CarbonClass], ppm: float | None, cfg: VerdictConfig
+) -> tuple[float, CarbonClass] | None:
+    """Judge whether classes sharing one signal could all resonate there.
+
+    An accidental overlap without intensity evidence is a fair explanation of a missing
+    signal only where every carbon on the signal could resonate.  When the predicted
+    shift of one of them lies more than ``cfg.implausible_overlap_sd`` prediction SDs
+    from the shared signal, the coincidence is not credible and the carbon counts as
+    missing.
+
+    Returns
+    -------
+    tuple of (float, CarbonClass) or None
+        The largest distance in SD and the class it belongs to, when implausible;
+        None when the coincidence is plausible or nothing was predicted.
+
+    """
+    if ppm is None:
+        return None
+    worst: tuple[float, CarbonClass] | None = None
+    for cls in group:
+        if cls.predicted_ppm is None or not cls.prediction_sd:
+            continue
+        z = abs(ppm - cls.predicted_ppm) / max(cls.prediction_sd, cfg.min_prediction_sd)
+        if worst is None or z > worst[0]:
+            worst = (z, cls)
+    return worst if worst is not None and worst[0] > cfg.implausible_overlap_sd else None
 
 
 def _total_cost(
