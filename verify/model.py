@@ -413,7 +413,7 @@ class Observation:
 
     def signal_counts(self) -> dict[str, int]:
         """Sample-signal count per multiplicity (unknown calls are not counted)."""
-        counts = dict.fromkeys(MULTIPLICITIES, 0)
+        counts: dict[str, int] = dict.fromkeys(MULTIPLICITIES, 0)
         for s in self.sample_signals:
             if s.multiplicity is not None:
                 counts[s.multiplicity] += 1
@@ -541,14 +541,14 @@ class Expectation:
 
     def inventory(self) -> dict[str, int]:
         """Carbons per multiplicity."""
-        counts = dict.fromkeys(MULTIPLICITIES, 0)
+        counts: dict[str, int] = dict.fromkeys(MULTIPLICITIES, 0)
         for c in self.classes:
             counts[c.multiplicity] += c.carbons
         return counts
 
     def signals(self) -> dict[str, int]:
         """Count the expected distinct peaks per multiplicity (one per class)."""
-        counts = dict.fromkeys(MULTIPLICITIES, 0)
+        counts: dict[str, int] = dict.fromkeys(MULTIPLICITIES, 0)
         for c in self.classes:
             counts[c.multiplicity] += 1
         return counts

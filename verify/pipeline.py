@@ -293,7 +293,9 @@ def build_audit(
     ref = observation.referencing
     processing: dict[str, Any] = {}
     for role, ps in observation.peaksets.items():
-        prov = dict(ps.spectrum.provenance) if ps.spectrum is not None else {"format": "peak list"}
+        prov: dict[str, Any] = (
+            dict(ps.spectrum.provenance) if ps.spectrum is not None else {"format": "peak list"}
+        )
         prov["noise"] = ps.noise
         prov["threshold_snr"] = ps.threshold_snr
         processing[role] = _plain(prov)
