@@ -159,3 +159,18 @@ def test_failed_run_writes_nothing(tmp_path: Path, capsys: pytest.CaptureFixture
     assert_one_line_error(err)
     assert "13c.dx" in err
     assert not html.exists() and not js.exists()
+
+
+def test_pdf_without_browser_exits_2_and_writes_nothing(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch
+) -> None:
+    import verify.report
+
+    monkeypatch.setattr(verify.report, "find_browser", lambda: None)
+    example = Path(__file__).resolve().parents[1] / "examples" / "lot-pass" / "sample.toml"
+    js, pdf = tmp_path / "r.json", tmp_path / "r.pdf"
+    code, _, err = run(["check", str(example), "--json", str(js), "--pdf", str(pdf)], capsys)
+    assert code == 2
+    assert_one_line_error(err)
+    assert "Chromium" in err
+    assert not js.exists() and not pdf.exists()

@@ -27,7 +27,7 @@ from typing import Any, NoReturn
 
 from verify import __version__
 from verify._files import atomic_write_text
-from verify.errors import CtallyError, UsageError
+from verify.errors import CtallyError, ToolMissingError, UsageError
 
 __all__ = ["EXIT_CODES", "main"]
 
@@ -146,6 +146,14 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
     for target in (args.html, args.json, args.pdf):
         _check_target(target)
+    if args.pdf:
+        from verify.report import find_browser
+
+        if find_browser() is None:
+            raise ToolMissingError(
+                "--pdf needs a Chromium browser ('chromium' or 'chromium-browser' on PATH); "
+                "install one, or drop --pdf and print the HTML report from any browser"
+            )
     roles = ("carbon", "dept90", "dept135", "dept45", "apt")
     flagged = {r: getattr(args, r) for r in roles if getattr(args, r)}
     if args.sample:
@@ -172,15 +180,16 @@ def _cmd_check(args: argparse.Namespace) -> int:
         html = render_html(
             result.verdict, sample=result.sample, audit=result.audit, candidates=result.ranked
         )
-    # Every output is computed above; only now is anything written.
-    if args.json and args.json != "-":
-        atomic_write_text(args.json, _dump(data))
-    if html is not None and args.html:
-        atomic_write_text(args.html, html)
+    # Every output is computed above; only now is anything written.  The PDF goes first:
+    # it is the one step that can still fail (the browser), and then nothing is written.
     if html is not None and args.pdf:
         from verify.report import html_to_pdf
 
         html_to_pdf(html, args.pdf)
+    if args.json and args.json != "-":
+        atomic_write_text(args.json, _dump(data))
+    if html is not None and args.html:
+        atomic_write_text(args.html, html)
     _emit(_check_text(result, args), data, args.json)
     return EXIT_CODES[result.verdict.verdict]
 
