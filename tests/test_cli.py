@@ -10,9 +10,9 @@ import shutil
 from pathlib import Path
 
 import pytest
+from conftest import shared_path
 
 from verify.cli import main
-from conftest import shared_path
 
 
 def run(argv: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, str, str]:
