@@ -19,7 +19,9 @@ from verify.model import Verdict
 from verify.pipeline import CheckResult, check
 from verify.sample import load_sample
 
-SAMPLES = sorted(p.relative_to(SHARED / "spectra") for p in (SHARED / "spectra").glob("*/sample*.toml"))
+SAMPLES = sorted(
+    p.relative_to(SHARED / "spectra") for p in (SHARED / "spectra").glob("*/sample*.toml")
+)
 
 # Wrong structures (SMILES written here): why each must fail is in the comment.
 WRONG = {
