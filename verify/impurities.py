@@ -36,7 +36,6 @@ References
 from __future__ import annotations
 
 import math
-import re
 import tomllib
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
@@ -46,6 +45,7 @@ from statistics import median
 
 from verify.errors import UsageError
 from verify.model import HYDROGENS, Impurity, Observation, Signal
+from verify.reference import canonical_solvent as _shared_canonical
 
 __all__ = [
     "SOLVENTS",
@@ -71,46 +71,11 @@ SOLVENTS: tuple[str, ...] = (
 
 _SOURCE = "Gottlieb 1997 / Fulmer 2010, Table 2 ({column} column; values from memory)"
 
-# Lower-cased, punctuation-stripped spellings → canonical name.
-_ALIASES: dict[str, str] = {
-    "cdcl3": "CDCl3",
-    "chloroformd": "CDCl3",
-    "chloroformd1": "CDCl3",
-    "chloroformd1cdcl3": "CDCl3",
-    "deuterochloroform": "CDCl3",
-    "chloroform": "CDCl3",
-    "acetoned6": "acetone-d6",
-    "acetone": "acetone-d6",
-    "cd32co": "acetone-d6",
-    "dmsod6": "DMSO-d6",
-    "dmso": "DMSO-d6",
-    "cd32so": "DMSO-d6",
-    "dimethylsulfoxided6": "DMSO-d6",
-    "dimethylsulphoxided6": "DMSO-d6",
-    "c6d6": "C6D6",
-    "benzened6": "C6D6",
-    "benzene": "C6D6",
-    "cd3cn": "CD3CN",
-    "acetonitriled3": "CD3CN",
-    "acetonitrile": "CD3CN",
-    "cd3od": "CD3OD",
-    "methanold4": "CD3OD",
-    "methanol": "CD3OD",
-    "meod": "CD3OD",
-    "d2o": "D2O",
-    "deuteriumoxide": "D2O",
-    "water": "D2O",
-    "cd2cl2": "CD2Cl2",
-    "dichloromethaned2": "CD2Cl2",
-    "methylenechlorided2": "CD2Cl2",
-}
-
-
 def canonical_solvent(name: str | None) -> str | None:
     """Canonical NMR-solvent name for a spelling as files and users write it.
 
-    Uses :func:`verify.reference.canonical_solvent` when that module provides it, so the
-    whole tool agrees on one spelling; otherwise a small alias table of its own.
+    Uses :func:`verify.reference.canonical_solvent`, so the whole tool agrees on one
+    spelling; an unknown name is returned stripped.
 
     Parameters
     ----------
@@ -127,25 +92,7 @@ def canonical_solvent(name: str | None) -> str | None:
     """
     if name is None or not name.strip():
         return None
-    try:
-        from verify import reference  # another stage's module; may not exist yet
-
-        shared = getattr(reference, "canonical_solvent", None)
-    except ImportError:
-        shared = None
-    if shared is not None:
-        value = shared(name)
-        if value is not None:
-            return str(value)
-    text = name.strip()
-    # "Chloroform-D1 (CDCl3)", "Dimethylsulphoxide-D6 (DMSO-D6, C2D6SO))": try each part.
-    inner = [p for group in re.findall(r"\(([^)]*)\)", text) for p in group.split(",")]
-    outer = re.sub(r"\(.*", "", text)
-    for candidate in [*inner, outer, text]:
-        key = re.sub(r"[^a-z0-9]", "", candidate.lower())
-        if key in _ALIASES:
-            return _ALIASES[key]
-    return text
+    return _shared_canonical(name) or name.strip()
 
 
 @dataclass(frozen=True)

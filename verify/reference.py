@@ -132,6 +132,8 @@ def canonical_solvent(name: str | None) -> str | None:
     # "Chloroform-D1 (CDCl3)": try the parenthesised part and the rest separately
     tries += [_norm(m) for m in re.findall(r"\(([^()]*)\)", text)]
     tries.append(_norm(re.sub(r"\([^()]*\)", "", text)))
+    # "Dimethylsulphoxide-D6 (DMSO-D6, C2D6SO))": every comma- or bracket-separated part
+    tries += [_norm(t) for t in re.split(r"[(),;]", text) if t.strip()]
     for t in list(tries):
         tries.append(re.sub(r"[-_ ]?d\d*$", "", t))  # "acetone-d6" → "acetone"
         tries.append(t.replace("_", "-"))

@@ -37,10 +37,10 @@ import numpy.typing as npt
 
 from verify.errors import UsageError
 from verify.model import HYDROGENS, Multiplicity, Spectrum
+from verify.reference import canonical_solvent, solvent_signals
 
 __all__ = [
     "EDITED_EXPERIMENTS",
-    "SOLVENT_CARBONS",
     "SyntheticCarbon",
     "apt_intensity",
     "canonical_solvent",
@@ -56,40 +56,6 @@ __all__ = [
 DEPT_THETA: Mapping[str, float] = {"dept45": 45.0, "dept90": 90.0, "dept135": 135.0}
 #: Experiments whose peak heights depend on the attached protons.
 EDITED_EXPERIMENTS: tuple[str, ...] = ("dept45", "dept90", "dept135", "apt")
-
-#: Carbon multiplets of the common deuterated solvents: (shift ppm, deuterons on the
-#: carbon, 1J(C,D) Hz).  Shifts and multiplicities from Fulmer et al., Organometallics
-#: 2010, 29, 2176 (Table 2); the C–D couplings are the usual textbook values (from
-#: memory).  ``verify/data/solvents.toml`` (the referencing stage's table) takes
-#: precedence when present.
-SOLVENT_CARBONS: Mapping[str, tuple[tuple[float, int, float], ...]] = {
-    "CDCl3": ((77.16, 1, 32.0),),
-    "DMSO-d6": ((39.52, 3, 21.0),),
-    "CD3OD": ((49.00, 3, 21.4),),
-    "acetone-d6": ((206.26, 0, 0.0), (29.84, 3, 19.4)),
-    "C6D6": ((128.06, 1, 24.3),),
-    "CD2Cl2": ((53.84, 2, 27.2),),
-    "CD3CN": ((118.26, 0, 0.0), (1.32, 3, 21.0)),
-}
-
-_SOLVENT_ALIASES: Mapping[str, str] = {
-    "cdcl3": "CDCl3",
-    "chloroform-d": "CDCl3",
-    "chloroform": "CDCl3",
-    "dmso": "DMSO-d6",
-    "dmso-d6": "DMSO-d6",
-    "cd3od": "CD3OD",
-    "methanol-d4": "CD3OD",
-    "meod": "CD3OD",
-    "acetone": "acetone-d6",
-    "acetone-d6": "acetone-d6",
-    "c6d6": "C6D6",
-    "benzene-d6": "C6D6",
-    "cd2cl2": "CD2Cl2",
-    "dichloromethane-d2": "CD2Cl2",
-    "cd3cn": "CD3CN",
-    "acetonitrile-d3": "CD3CN",
-}
 
 
 # --------------------------------------------------------------------------- model
@@ -327,32 +293,6 @@ def _multiplet(couplings: Sequence[tuple[str, float, int]]) -> list[tuple[float,
     return sorted(lines.items())
 
 
-@lru_cache(maxsize=1)
-def _solvent_table() -> tuple[dict[str, tuple[tuple[float, int, float], ...]], dict[str, str]]:
-    """Solvent carbons and name aliases.
-
-    From ``verify/data/solvents.toml`` when it is there (shared with the referencing
-    stage), else the built-in :data:`SOLVENT_CARBONS`.
-    """
-    table = dict(SOLVENT_CARBONS)
-    aliases = dict(_SOLVENT_ALIASES)
-    try:
-        text = resources.files("verify").joinpath("data/solvents.toml").read_text("utf-8")
-    except (FileNotFoundError, OSError):
-        return table, aliases
-    for name, entry in tomllib.loads(text).items():
-        if not isinstance(entry, dict) or "signals" not in entry:
-            continue
-        table[name] = tuple(
-            (float(sig["ppm"]), int(sig.get("deuterium", 0)), float(sig.get("j_hz", 0.0)))
-            for sig in entry["signals"]
-        )
-        for alias in entry.get("names", ()):
-            aliases[str(alias).strip().lower()] = name
-        aliases[name.lower()] = name
-    return table, aliases
-
-
 def solvent_carbons(solvent: str) -> tuple[tuple[float, int, float], ...]:
     """Carbon signals of a deuterated solvent: (ppm, deuterons, 1J(C,D) in Hz) each.
 
@@ -370,30 +310,15 @@ def solvent_carbons(solvent: str) -> tuple[tuple[float, int, float], ...]:
     ----------
     Fulmer et al., Organometallics 2010, 29, 2176 (shifts, multiplicities).
     """
-    name = canonical_solvent(solvent)
-    if name is None:
-        known = ", ".join(_solvent_table()[0])
-        raise UsageError(f"no carbon data for solvent {solvent!r}; use one of {known} or None")
-    return _solvent_table()[0][name]
+    signals = solvent_signals(solvent)
+    if not signals:
+        raise UsageError(
+            f"no carbon data for solvent {solvent!r}; name a deuterated solvent or None"
+        )
+    return tuple((sig.ppm, sig.deuterium, sig.j_hz) for sig in signals)
 
 
 _solvent_carbons = solvent_carbons
-
-
-def canonical_solvent(name: str | None) -> str | None:
-    """Canonical solvent name (``"CDCl3"``, ``"DMSO-d6"`` …) or None when unknown.
-
-    Parameters
-    ----------
-    name : str or None
-        The solvent as written by a user or a file.
-    """
-    if name is None:
-        return None
-    table, aliases = _solvent_table()
-    if name in table:
-        return name
-    return aliases.get(name.strip().lower())
 
 
 def synthesize(
