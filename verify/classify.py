@@ -711,8 +711,10 @@ def _fit_globals(
     fixed_sign = np.ones(e_count)
     free: list[int] = []
     typical_resp = {"dept45": 0.9, "dept90": 1.0, "dept135": 0.85, "apt": 1.0}
+    has_peaks = np.zeros(e_count, dtype=bool)
     for k, e in enumerate(data.edited):
         strong = np.abs(data.y[:, k]) > 5.0 * data.sigma[:, k]
+        has_peaks[k] = bool(np.any(strong))
         sel = strong & has_c
         if np.any(sel):
             ratio = np.abs(data.y[sel, k]) / data.hc[sel]
@@ -794,9 +796,14 @@ def _fit_globals(
         totals.append(total)
         if total < best_total - 1e-9:
             best_total, best_scale, best_sign, best_theta = total, scale, sign, theta_best
-    # probability that the chosen signs are right, against the other combinations
+    # probability that the chosen signs are right, against the other combinations; an
+    # experiment without a strong peak (a DEPT-90 of a sample without CH) has no sign
+    # that matters, so its two readings are summed over rather than counted as doubt
     weights = np.exp(-0.5 * (np.asarray(totals) - best_total))
-    sign_p = float(1.0 / weights.sum())
+    combos = list(itertools.product((1.0, -1.0), repeat=len(free)))
+    settled = [j for j, k in enumerate(free) if has_peaks[k]]
+    agree = [all(c[j] == best_sign[free[j]] for j in settled) for c in combos]
+    sign_p = float(weights[np.asarray(agree, dtype=bool)].sum() / weights.sum())
     return best_scale, best_sign, sign_p, best_theta
 
 
