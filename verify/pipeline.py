@@ -239,7 +239,8 @@ def load_candidates(
         out.extend(_read_candidates_file(Path(candidates_file)))
     if not out:
         raise UsageError(
-            "no structure given: set `structure` in the sample file or pass --structure"
+            "no structure given: set `structure` in the sample file or pass --structure",
+            path=sample.path if sample is not None else None,
         )
     return [predict_shifts(e) for e in out]
 

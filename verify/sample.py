@@ -31,7 +31,7 @@ import tomllib
 from pathlib import Path
 from typing import Any
 
-from verify.errors import InputFileError, SampleError
+from verify.errors import InputFileError, SampleError, StructureError
 from verify.model import EXPERIMENTS, Sample
 
 __all__ = ["load_sample", "same_compound"]
@@ -51,9 +51,11 @@ def _inchi(structure: str | Path) -> tuple[str, str]:
         with _quiet_rdkit():
             mol = Chem.MolFromSmiles(structure)
         if mol is None:
+            from verify.structure import smiles_failure
+
             raise SampleError(
-                f"structure {structure!r} is not a valid SMILES; check brackets, ring"
-                " closures and atom symbols"
+                f"structure {structure!r} is not a valid SMILES: {smiles_failure(structure)};"
+                " check brackets, ring closures and atom symbols"
             )
     with _quiet_rdkit():
         inchi = Chem.MolToInchi(mol)  # type: ignore[no-untyped-call]  # RDKit stubs
@@ -111,6 +113,16 @@ def same_compound(smiles: str, structure_file: Path) -> tuple[bool, str]:
     return True, ""
 
 
+def _check_smiles(smiles: str, path: Path) -> None:
+    """Parse the ``structure`` SMILES now, so that its error names the sample file."""
+    from verify.structure import load_structure
+
+    try:
+        load_structure(smiles)
+    except StructureError as exc:
+        raise StructureError(f"structure: {exc.detail}", path=path) from None
+
+
 def _tomlerror_line(exc: tomllib.TOMLDecodeError) -> int | None:
     m = re.search(r"line (\d+)", str(exc))
     return int(m.group(1)) if m else None
@@ -137,6 +149,9 @@ def load_sample(path: str | os.PathLike[str]) -> Sample:
         Invalid TOML (with its line), a missing or empty ``[spectra]`` table, an
         unknown role (named), a value of the wrong type, or ``structure`` and
         ``structure_file`` naming different compounds.
+    StructureError
+        ``structure`` is not a usable SMILES (unparsable, with the position, or no
+        carbon); the message names the sample file.
 
     References
     ----------
@@ -211,6 +226,8 @@ def load_sample(path: str | os.PathLike[str]) -> Sample:
                 " or correct the other",
                 path=p,
             )
+    if smiles:
+        _check_smiles(smiles, p)
     metadata: dict[str, Any] = {k: v for k, v in doc.items() if k not in _KNOWN}
     return Sample(
         name=name,

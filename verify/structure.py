@@ -86,6 +86,7 @@ __all__ = [
     "expected_inventory",
     "format_expectation",
     "load_structure",
+    "smiles_failure",
 ]
 
 _DATA = Path(__file__).with_name("data")
@@ -132,9 +133,15 @@ def _couplings() -> dict[str, dict[str, tuple[float, float]]]:
 
 @contextmanager
 def _captured_log() -> Iterator[list[str]]:
-    """Collect RDKit error/warning messages instead of printing them."""
+    """Collect RDKit error messages instead of printing them; silence its warnings.
+
+    RDKit sends some parse problems of a molfile ("Atom line too short") to its
+    warning log, which :class:`rdBase.CaptureErrorLog` does not see; without the
+    :class:`rdBase.BlockLogs` they would reach standard error beside the tool's one
+    error line.  ``BlockLogs`` restores the caller's log settings on exit.
+    """
     messages: list[str] = []
-    with rdBase.CaptureErrorLog() as log:
+    with rdBase.BlockLogs(), rdBase.CaptureErrorLog() as log:
         try:
             yield messages
         finally:
@@ -174,6 +181,80 @@ def _strip_protium(mol: Chem.Mol) -> Chem.Mol:
     return out
 
 
+def _open_ring_bond(text: str) -> str:
+    """Say where a ring-closure label that is never closed was opened (RDKit does not).
+
+    Ring-bond labels are a digit or ``%nn`` outside bracket atoms; each label pairs
+    its first and second use (OpenSMILES specification, section 3.4, "Ring closure").
+    Returns e.g. ``"ring bond 1 opened at position 2 is never closed"`` (1-based
+    position) or ``""`` when every label is closed.
+    """
+    opened: dict[str, int] = {}
+    i, depth = 0, 0
+    while i < len(text):
+        ch = text[i]
+        label, width = "", 1
+        if ch == "[":
+            depth += 1
+        elif ch == "]":
+            depth = max(depth - 1, 0)
+        elif depth == 0 and ch.isdigit():
+            label = ch
+        elif depth == 0 and ch == "%" and text[i + 1 : i + 3].isdigit():
+            label, width = text[i : i + 3], 3
+        if label:
+            if label in opened:
+                del opened[label]
+            else:
+                opened[label] = i + 1
+        i += width
+    if not opened:
+        return ""
+    label, pos = min(opened.items(), key=lambda kv: kv[1])
+    return f"ring bond {label} opened at position {pos} is never closed"
+
+
+def _smiles_failure(text: str, log: Sequence[str]) -> str:
+    """Say what RDKit's parser disliked in `text` and where (1-based position), from its log."""
+    reasons = []
+    position = ""
+    for m in log:
+        if "position" in m:
+            position = m.rstrip(":").split("mistakes ")[-1]
+        elif m.startswith("SMILES Parse Error:") and "Failed parsing" not in m:
+            reasons.append(
+                m.split(":", 1)[1].split(" while parsing")[0].split(" for input")[0].strip()
+            )
+    reason = "; ".join(reasons) or "syntax error"
+    if not position:
+        position = _open_ring_bond(text)
+    return f"{reason} ({position})" if position else reason
+
+
+def smiles_failure(text: str) -> str | None:
+    """Why `text` does not parse as SMILES, with the position; None when it parses.
+
+    Parameters
+    ----------
+    text : str
+        A SMILES string.
+
+    Returns
+    -------
+    str or None
+        E.g. ``"extra open parentheses (around position 5)"``.
+
+    References
+    ----------
+    RDKit ``MolFromSmiles`` (its parse-error log); OpenSMILES specification.
+    """
+    params = Chem.SmilesParserParams()
+    params.sanitize = False  # type: ignore[assignment]  # RDKit stub types
+    with _captured_log() as log:
+        mol = Chem.MolFromSmiles(text, params)
+    return None if mol is not None else _smiles_failure(text, log)
+
+
 def _parse_smiles(text: str) -> Chem.Mol:
     params = Chem.SmilesParserParams()
     params.removeHs = False  # type: ignore[assignment]  # RDKit stub types
@@ -181,19 +262,8 @@ def _parse_smiles(text: str) -> Chem.Mol:
     with _captured_log() as log:
         mol = Chem.MolFromSmiles(text, params)
     if mol is None:
-        reasons = []
-        position = ""
-        for m in log:
-            if "position" in m:
-                position = m.rstrip(":").split("mistakes ")[-1]
-            elif m.startswith("SMILES Parse Error:") and "Failed parsing" not in m:
-                reasons.append(
-                    m.split(":", 1)[1].split(" while parsing")[0].split(" for input")[0].strip()
-                )
-        reason = "; ".join(reasons) or "syntax error"
-        where = f" ({position})" if position else ""
         raise StructureError(
-            f"cannot parse SMILES {text!r}: {reason}{where}; "
+            f"cannot parse SMILES {text!r}: {_smiles_failure(text, log)}; "
             "check brackets, ring-closure digits and atom symbols"
         )
     with _captured_log():
@@ -234,7 +304,10 @@ def _read_file(path: Path) -> Chem.Mol:
     with _captured_log() as log:
         mol = Chem.MolFromMolBlock(block, sanitize=True, removeHs=False)
     if mol is None:
-        detail = "; ".join(m.strip() for m in log) or "not a valid molfile"
+        detail = "; ".join(m.strip() for m in log) or (
+            "not a valid molfile (its header, counts line or atom and bond blocks"
+            " do not parse); give a V2000/V3000 MOL or SDF file"
+        )
         raise InputFileError(f"cannot read a structure from the file: {detail}", path=path)
     if mol.GetNumConformers() and mol.GetConformer().Is3D():
         Chem.AssignStereochemistryFrom3D(mol)
@@ -272,6 +345,7 @@ def load_structure(structure: str | os.PathLike[str] | Chem.Mol) -> Chem.Mol:
     .. [1] RDKit ``MolFromSmiles``/``MolFromMolBlock``/``RemoveHs`` (removeIsotopes=False).
 
     """
+    source: Path | None = None  # the file the structure came from, for error messages
     if isinstance(structure, Chem.Mol):
         mol = Chem.Mol(structure)
         try:
@@ -279,13 +353,15 @@ def load_structure(structure: str | os.PathLike[str] | Chem.Mol) -> Chem.Mol:
         except Exception as exc:  # RDKit raises its own sanitisation errors
             raise StructureError(f"the RDKit molecule does not sanitise: {exc}") from exc
     elif isinstance(structure, os.PathLike):
-        mol = _read_file(Path(structure))
+        source = Path(structure)
+        mol = _read_file(source)
     elif isinstance(structure, str):
         text = structure.strip()
         if not text:
             raise StructureError("the structure is an empty string; give a SMILES or a file")
         if _is_file(text) or (_looks_like_file(text) and " " not in text):
-            mol = _read_file(Path(text))
+            source = Path(text)
+            mol = _read_file(source)
         else:
             mol = _parse_smiles(text)
     else:
@@ -306,7 +382,8 @@ def load_structure(structure: str | os.PathLike[str] | Chem.Mol) -> Chem.Mol:
     if not any(a.GetAtomicNum() == 6 for a in mol.GetAtoms()):
         raise StructureError(
             f"the structure {Chem.MolToSmiles(mol)!r} has no carbon atom: nothing to check "
-            "in a carbon-13 spectrum"
+            "in a carbon-13 spectrum",
+            path=source,
         )
     return mol
 

@@ -539,8 +539,8 @@ def _assemble(toks: _Tokens, table: _Table, path: Path, limit: int) -> _Decoded:
     if not np.all(ok):
         i = int(need[np.flatnonzero(~ok)[0]])
         raise SpectrumFormatError(
-            f"Y-checkpoint failed: line {linenos[i]} ends in DIF form with {prev_last[~ok][0]:g}"
-            f" but the next line starts with {next_first[~ok][0]:g} (a value or a checkpoint is"
+            f"Y-checkpoint failed: line {linenos[i]} ends in DIF form with {prev_last[~ok][0]:.12g}"
+            f" but the next line starts with {next_first[~ok][0]:.12g} (a value or a checkpoint is"
             " missing or corrupt)",
             path=path,
             line=linenos[i + 1],
@@ -595,11 +595,16 @@ def _num(labels: dict[str, tuple[str, int]], key: str, path: Path) -> float | No
     if not text:
         return None
     try:
-        return float(text.split()[0].rstrip(","))
+        value = float(text.split()[0].rstrip(","))
     except ValueError:
         raise SpectrumFormatError(
             f"##{key}= should be a number, got {text[:30]!r}", path=path, line=no
         ) from None
+    if not math.isfinite(value):
+        raise SpectrumFormatError(
+            f"##{key}= should be a finite number, got {text[:30]!r}", path=path, line=no
+        )
+    return value
 
 
 def _text(labels: dict[str, tuple[str, int]], key: str) -> str | None:
@@ -620,13 +625,16 @@ def _col_num(labels: dict[str, tuple[str, int]], key: str, col: int, path: Path)
     if col >= len(cols) or not cols[col]:
         return None
     try:
-        return float(cols[col])
+        value = float(cols[col])
     except ValueError:
+        value = math.nan
+    if not math.isfinite(value):
         raise SpectrumFormatError(
-            f"##{key}= column {col + 1} should be a number, got {cols[col]!r}",
+            f"##{key}= column {col + 1} should be a finite number, got {cols[col]!r}",
             path=path,
             line=labels[key][1],
-        ) from None
+        )
+    return value
 
 
 _PROVENANCE_KEYS = (
