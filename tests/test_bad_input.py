@@ -468,6 +468,7 @@ def test_expect_bad_smiles(
         ("empty", lambda p: p.write_bytes(b""), ("x.mol", "empty")),
         ("garbage", _mol_garbage, ("x.mol", "not a valid molfile")),
         ("no-carbon", _mol_without_carbon, ("x.mol", "no carbon")),
+        ("folder", lambda p: p.mkdir(), ("x.mol", "is a folder")),
     ],
 )
 def test_expect_bad_molfile(
@@ -482,5 +483,37 @@ def test_expect_bad_molfile(
         write(mol)
     before = snapshot(tmp_path)
     code, out, err = run(["expect", str(mol), "--json", str(tmp_path / "e.json")], capfd)
+    assert_bad_input(code, out, err, *words)
+    assert snapshot(tmp_path) == before
+
+
+# ------------------------------------------------------------------ PDF output
+
+
+@pytest.mark.shared
+@pytest.mark.parametrize(
+    ("browser", "words"),
+    [
+        (None, ("PDF", "Chromium")),  # no browser on PATH
+        ("/bin/false", ("/bin/false", "no PDF")),  # a browser that prints nothing
+    ],
+    ids=["no-browser", "browser-fails"],
+)
+def test_pdf_failure_writes_no_other_output(
+    browser: str | None,
+    words: tuple[str, ...],
+    tmp_path: Path,
+    spectra_dir: Path,
+    capfd: pytest.CaptureFixture[str],
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # Issue 6: "a clear message where none is"; the JSON and HTML of the same run must
+    # not be left behind when the PDF cannot be made.
+    monkeypatch.setattr("verify.report.find_browser", lambda: browser)
+    sample = build(tmp_path / "s", spectra_dir / "estragole")
+    (tmp_path / "out.json").write_bytes(b'{"verdict": "pass", "from": "an earlier run"}\n')
+    before = snapshot(tmp_path)
+    argv = _command("check", sample, tmp_path) + ["--pdf", str(tmp_path / "out.pdf")]
+    code, out, err = run(argv, capfd)
     assert_bad_input(code, out, err, *words)
     assert snapshot(tmp_path) == before

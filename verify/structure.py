@@ -153,7 +153,9 @@ def _captured_log() -> Iterator[list[str]]:
 
 def _is_file(text: str) -> bool:
     try:
-        return Path(text).is_file()
+        # a folder named with a path separator is a wrong path (said so), not a SMILES;
+        # a bare name like "C" stays a SMILES even when a folder of that name exists
+        return Path(text).is_file() or (os.sep in text and Path(text).is_dir())
     except (OSError, ValueError):  # too long for a file name, or a NUL byte: a SMILES
         return False
 
@@ -282,6 +284,11 @@ def _parse_smiles(text: str) -> Chem.Mol:
 
 
 def _read_file(path: Path) -> Chem.Mol:
+    if path.is_dir():
+        raise InputFileError(
+            f"{str(path)!r} is a folder, not a structure file; give a MOL/SDF path or a SMILES",
+            path=path,
+        )
     if not path.is_file():
         raise InputFileError(
             f"structure file {str(path)!r} does not exist; give a MOL/SDF path or a SMILES",
