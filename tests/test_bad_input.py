@@ -171,6 +171,18 @@ def png(path: Path) -> str:
     return "binary"
 
 
+def flat(path: Path) -> str:
+    """A synthetic 13C spectrum holding 0 at every point (a dead export: no signal, no noise)."""
+    import numpy as np
+
+    from verify.model import Spectrum
+    from verify.readers.jcamp import write_jcamp
+
+    ppm = np.linspace(220.0, -10.0, 8192)
+    write_jcamp(Spectrum(ppm=ppm, intensity=np.zeros(ppm.size), observe_mhz=100.6), path)
+    return "same value"
+
+
 #: Breakages of the carbon spectrum file: (id, edit returning a word the message must hold).
 SPECTRUM_CASES: list[tuple[str, Callable[[Path], str]]] = [
     ("truncated", truncate),
@@ -182,6 +194,7 @@ SPECTRUM_CASES: list[tuple[str, Callable[[Path], str]]] = [
     ("dif-checkpoint", break_checkpoint),
     ("proton-as-carbon", as_proton),
     ("firstx-not-finite", set_label("FIRSTX", "nan")),
+    ("flat-spectrum", flat),
     ("truncated-fid", truncated_copy_of("estragole", "13c.fid.dx")),
     ("truncated-ntuples", truncated_copy_of("estragole-ntuples", "13c.dx")),
 ]

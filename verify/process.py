@@ -221,8 +221,21 @@ def prepare(obj: Spectrum | Fid, *, experiment: str | None = None, **kw: Any) ->
     -------
     Spectrum
 
+    Raises
+    ------
+    ProcessingError
+        A processed spectrum with the same value at every point (no signal and
+        no noise: no measurement is that flat), or a FID of zeros.
+
     """
     if isinstance(obj, Spectrum):
+        values = obj.intensity
+        if values.size and float(values.max()) == float(values.min()):
+            raise ProcessingError(
+                f"the spectrum holds the same value ({float(values[0]):g}) at all"
+                f" {values.size} points: no signal and no noise to work with; export it again",
+                path=obj.source,
+            )
         return obj
     if not isinstance(obj, Fid):
         raise UsageError(f"prepare() takes a Spectrum or a Fid, got {type(obj).__name__}")
