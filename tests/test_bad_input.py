@@ -19,6 +19,8 @@ from __future__ import annotations
 import os
 import re
 import shutil
+import subprocess
+import sys
 import time
 import tracemalloc
 from collections.abc import Callable
@@ -47,8 +49,9 @@ def snapshot(folder: Path) -> dict[str, bytes]:
 
 
 def assert_bad_input(code: int, out: str, err: str, *words: str) -> None:
-    """Exit 2, one ``ErrorName: message`` line on stderr holding every word, no traceback."""
+    """Exit 2, nothing on stdout, one ``ErrorName: message`` line on stderr, no traceback."""
     assert code == 2, (code, out, err)
+    assert out == "", out  # no partial summary either
     assert "Traceback" not in err
     lines = err.splitlines()
     assert len(lines) == 1, err
@@ -530,3 +533,49 @@ def test_pdf_failure_writes_no_other_output(
     code, out, err = run(argv, capfd)
     assert_bad_input(code, out, err, *words)
     assert snapshot(tmp_path) == before
+
+
+# ------------------------------------------------------------------ JSON on stdout, real process
+
+
+@pytest.mark.shared
+def test_json_to_stdout_prints_nothing_on_failure(
+    tmp_path: Path, spectra_dir: Path, capfd: pytest.CaptureFixture[str]
+) -> None:
+    sample = build(tmp_path / "s", spectra_dir / "estragole")
+    truncate(tmp_path / "s" / "13c.dx")
+    for argv in (["check", str(sample), "--json", "-"], ["classify", str(sample), "--json", "-"]):
+        code, out, err = run(argv, capfd)
+        assert_bad_input(code, out, err, "13c.dx", "NPOINTS")
+
+
+@pytest.mark.shared
+def test_installed_command_in_a_fresh_process(tmp_path: Path, spectra_dir: Path) -> None:
+    # Outside pytest, warnings are not errors and RDKit/C libraries write to the real
+    # stderr: the contract must hold for the command as users run it.
+    sample = build(tmp_path / "s", spectra_dir / "estragole")
+    break_checkpoint(tmp_path / "s" / "13c.dx")
+    _mol_garbage(tmp_path / "g.mol")
+    env = {**os.environ, "PYTHONWARNINGS": "default"}
+    for argv in (
+        [
+            "check",
+            str(sample),
+            "--json",
+            str(tmp_path / "o.json"),
+            "--html",
+            str(tmp_path / "o.html"),
+        ],
+        ["expect", str(tmp_path / "g.mol")],
+    ):
+        before = snapshot(tmp_path)
+        proc = subprocess.run(
+            [sys.executable, "-m", "verify.cli", *argv],
+            capture_output=True,
+            text=True,
+            env=env,
+            timeout=120,
+            check=False,
+        )
+        assert_bad_input(proc.returncode, proc.stdout, proc.stderr)
+        assert snapshot(tmp_path) == before
