@@ -297,20 +297,42 @@ def test_config_thresholds_are_honoured() -> None:
 # ------------------------------------------------------------- through synthetic spectra
 
 
-def _through_spectra(carbons: list[tuple[float, str, int]], seed: int) -> Observation:
-    """Synthetic carbon/DEPT-90/DEPT-135 spectra → reference → pick → classify."""
+def _through_spectra(
+    carbons: list[tuple[float, str, int]], seed: int, experiments: Sequence[str] = FULL
+) -> Observation:
+    """Synthetic carbon/DEPT-90/DEPT-135 (or given) spectra → reference → pick → classify."""
     simulate = pytest.importorskip("verify.simulate")
     peaks = pytest.importorskip("verify.peaks")
     classify = pytest.importorskip("verify.classify")
     reference = pytest.importorskip("verify.reference")
     synth = [simulate.SyntheticCarbon(ppm=p, multiplicity=m, carbons=n) for p, m, n in carbons]
-    spectra = simulate.synthesize(synth, snr=80.0, seed=seed, solvent="CDCl3")
+    spectra = simulate.synthesize(
+        synth, snr=80.0, seed=seed, solvent="CDCl3", experiments=tuple(experiments)
+    )
     spectra, ref = reference.reference_sample(spectra, "CDCl3")
     picked = {
         role: peaks.pick_peaks(sp, role, solvent="CDCl3", referencing=ref)
         for role, sp in spectra.items()
     }
     return classify.classify(picked, referencing=ref, solvent="CDCl3")
+
+
+# anisole, CDCl3 (from memory of the SDBS spectrum)
+ANISOLE = [(159.7, "C", 1), (129.5, "CH", 2), (120.7, "CH", 1), (114.0, "CH", 2), (55.1, "CH3", 1)]
+
+
+@pytest.mark.parametrize("experiments", [("carbon", "dept135"), ("carbon", "apt")])
+def test_ch_or_ch3_signal_rules_out_a_ch2(experiments: tuple[str, str]) -> None:
+    # Condition: no DEPT-90 (carbon + DEPT-135, or carbon + APT).  The OCH3 at 55 ppm is up
+    # in DEPT-135 (on the CH/CH3 phase in APT: Patt & Shoolery 1982), so it is CH or CH3 and
+    # surely not CH2, though CH3 over CH is only a shift-region call.  The isomer benzyl
+    # alcohol (CH2OH) must fail, not stay at review (found by
+    # benchmarks/sweep_conditions.py); anisole itself must not fail.
+    obs = _through_spectra(ANISOLE, seed=0, experiments=experiments)
+    assert judge(expect_predicted("COc1ccccc1"), obs).verdict != "fail"
+    v = judge(expect_predicted("OCc1ccccc1"), obs)
+    assert v.verdict == "fail", format_verdict(v)
+    assert any(f.code == "multiplicity-mismatch" and f.severity == "fail" for f in v.findings)
 
 
 @pytest.fixture(scope="module")

@@ -1206,14 +1206,20 @@ def _decide(
     order = np.argsort(-post)
     m_best = int(order[0])
     conf = float(post[m_best])
+    candidates = tuple(MULTIPLICITIES[m] for m in range(4) if post[m] >= 0.1)
+    # how sure the signal is one of the candidates: what rules a class outside them out
+    set_conf = float(sum(post[m] for m in range(4) if post[m] >= 0.1))
     if m_best != 0:  # a quaternary call does not depend on the phase
         conf *= sign_p
+    if candidates != ("C",):
+        set_conf *= sign_p
     chi_best = float(fit.chi2[i, m_best])
     e_count = len(data.edited)
     if chi_best > 4.0 + 3.0 * e_count:
-        conf *= math.exp(-(chi_best - 4.0 - 3.0 * e_count) / 20.0)
+        misfit = math.exp(-(chi_best - 4.0 - 3.0 * e_count) / 20.0)
+        conf *= misfit
+        set_conf *= misfit
     mixed = False
-    candidates = tuple(MULTIPLICITIES[m] for m in range(4) if post[m] >= 0.1)
     mixed_words = ""
     alt = _mixed_fit(data, i, scale, sign)
     if alt is not None and alt[0] < float(fit.scores[i, m_best]) - 2.0:
@@ -1225,6 +1231,7 @@ def _decide(
             f"an overlap of {MULTIPLICITIES[a]} + {MULTIPLICITIES[b]} fits better"
         )
         conf = min(conf, 0.5)
+        set_conf = conf
     mult: Multiplicity = MULTIPLICITIES[m_best]
     unit = "of carbon height" if has_c else "of a typical carbon's height"
     words = [
@@ -1250,6 +1257,7 @@ def _decide(
             f", nothing in the edited spectra: deuterated carbon, counted as C (no protium)"
         )
         conf = max(conf, 0.9)
+        set_conf = max(set_conf, conf)
     if row.note.startswith("not picked"):
         where = " and ".join(_NAMES[e] for e in data.edited if row.picked.get(e))
         reason += f" (seen in {where} but {row.note})"
@@ -1257,9 +1265,11 @@ def _decide(
         reason += f" ({row.note})"
     if len(candidates) <= 1:
         candidates = (mult,)
+    confidence = round(min(max(conf, 0.0), 0.99), 3)
     return Signal(
         multiplicity=mult,
-        confidence=round(min(max(conf, 0.0), 0.99), 3),
+        confidence=confidence,
+        candidates_confidence=max(confidence, round(min(max(set_conf, 0.0), 0.99), 3)),
         reason=reason,
         candidates=candidates,
         mixed=mixed,

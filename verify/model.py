@@ -337,6 +337,10 @@ class Signal:
         Multiplet grouping carried over from the carbon peak.
     label : str
         For solvent/impurity signals, what it is (e.g. ``"CDCl3"``, ``"ethyl acetate"``).
+    candidates_confidence : float or None
+        0–1, how sure it is that the signal is one of its ``candidates`` (so how sure a
+        class outside them is ruled out); None when not estimated (``confidence`` then
+        stands for it).
     """
 
     ppm: float
@@ -355,6 +359,7 @@ class Signal:
     j_hz: float | None = None
     lines: tuple[float, ...] = ()
     label: str = ""
+    candidates_confidence: float | None = None
 
     def __post_init__(self) -> None:
         if self.multiplicity is not None and self.multiplicity not in MULTIPLICITIES:

@@ -289,13 +289,20 @@ def judge(
             cls = classes[k]
             how = agreement(cls.multiplicity, s)
             if how == "contradiction":
-                sev = "fail" if s.confidence >= cfg.confident else "review"
+                # the class lies outside every candidate: what counts is how sure the
+                # signal is one of them (a CH-or-CH3 at 55 ppm rules out a CH2 firmly
+                # even when CH3 over CH is only a shift-region call)
+                sure = max(s.confidence, s.candidates_confidence or 0.0)
+                sev = "fail" if sure >= cfg.confident else "review"
+                seen = s.multiplicity or "/".join(s.candidates)
+                if len(s.candidates) > 1 and not s.mixed and sure > s.confidence:
+                    seen += f" (or {' or '.join(c for c in s.candidates if c != seen)})"
                 fx.add(
                     "multiplicity-mismatch",
                     sev,
                     f"{cls.label} is a {cls.multiplicity} in the structure, but the signal at "
-                    f"{_ppm(s.ppm)} looks like a {s.multiplicity or '/'.join(s.candidates)} "
-                    f"(confidence {s.confidence:.2f}).",
+                    f"{_ppm(s.ppm)} looks like a {seen} "
+                    f"(confidence {sure:.2f}).",
                     cls.atoms,
                     (s.ppm,),
                 )
