@@ -579,3 +579,42 @@ def test_installed_command_in_a_fresh_process(tmp_path: Path, spectra_dir: Path)
         )
         assert_bad_input(proc.returncode, proc.stdout, proc.stderr)
         assert snapshot(tmp_path) == before
+
+
+# ------------------------------------------------------------------ check with flags
+
+
+@pytest.mark.shared
+@pytest.mark.parametrize(
+    ("case", "override", "words"),
+    [
+        ("missing-carbon", {"--carbon": "{s}/nothere.dx"}, ("nothere.dx", "not found")),
+        ("proton-carbon", {"--carbon": "{s}/1h.dx"}, ("1h.dx", "13C")),
+        ("bad-structure", {"--structure": "C=CCc1ccc(OC)cc"}, ("SMILES", "position 6")),
+        ("missing-candidates", {"--candidates": "{s}/nothere.txt"}, ("nothere.txt", "not found")),
+        ("file-and-flags", {"": "{s}/sample.toml"}, ("either a sample file or spectrum flags",)),
+    ],
+)
+def test_check_with_flags(
+    case: str,
+    override: dict[str, str],
+    words: tuple[str, ...],
+    tmp_path: Path,
+    spectra_dir: Path,
+    capfd: pytest.CaptureFixture[str],
+) -> None:
+    # `ctally check --carbon F --structure S ...` (issue 5); "" is the positional sample file.
+    folder = tmp_path / "s"
+    build(folder, spectra_dir / "estragole")
+    shutil.copyfile(folder / "13c.dx", folder / "1h.dx")
+    as_proton(folder / "1h.dx")
+    given = {"--carbon": str(folder / "13c.dx"), "--structure": "C=CCc1ccc(OC)cc1"}
+    given.update({k: v.format(s=folder) for k, v in override.items()})
+    argv = ["check"]
+    for flag, value in given.items():
+        argv += [flag, value] if flag else [value]
+    argv += ["--json", str(tmp_path / "out.json"), "--html", str(tmp_path / "out.html")]
+    before = snapshot(tmp_path)
+    code, out, err = run(argv, capfd)
+    assert_bad_input(code, out, err, *words)
+    assert snapshot(tmp_path) == before
