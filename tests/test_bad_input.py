@@ -448,6 +448,21 @@ def test_output_folder_missing(
     assert not target.parent.exists()
 
 
+@pytest.mark.shared
+@pytest.mark.parametrize("flag", ["--html", "--pdf"])
+def test_output_path_that_is_a_folder(
+    flag: str, tmp_path: Path, spectra_dir: Path, capfd: pytest.CaptureFixture[str]
+) -> None:
+    # Found by this test: the JSON used to be written before the HTML write failed.
+    sample = build(tmp_path / "s", spectra_dir / "estragole")
+    (tmp_path / "report").mkdir()
+    argv = ["check", str(sample), "--json", str(tmp_path / "out.json"), flag]
+    before = snapshot(tmp_path)
+    code, out, err = run([*argv, str(tmp_path / "report")], capfd)
+    assert_bad_input(code, out, err, "report", "is a folder")
+    assert snapshot(tmp_path) == before
+
+
 # ------------------------------------------------------------------ expect
 
 

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -102,12 +103,21 @@ def _emit(text: str, data: Any | None, json_target: str | None) -> None:
 
 
 def _check_target(path: str | None) -> None:
-    """Refuse an output path whose folder is missing before any work is done."""
+    """Refuse an output path that cannot be written, before any work is done.
+
+    A missing or read-only folder, or a path that is itself a folder, would otherwise
+    fail only at writing time, after the other outputs of the run had been written.
+    """
     if path is None or path == "-":
         return
-    folder = Path(path).expanduser().resolve().parent
+    target = Path(path).expanduser().resolve()
+    folder = target.parent
     if not folder.is_dir():
         raise UsageError(f"cannot write {path}: folder {folder} does not exist")
+    if target.is_dir():
+        raise UsageError(f"cannot write {path}: it is a folder; give a file name")
+    if not os.access(folder, os.W_OK):
+        raise UsageError(f"cannot write {path}: folder {folder} is not writable")
 
 
 def _cmd_expect(args: argparse.Namespace) -> int:
