@@ -42,7 +42,8 @@ coincident-pair          info     a diastereotopic/rotamer pair appears as one s
 split-class              review   a class of symmetry-equivalent carbons takes two close
                                   signals (hindered rotation, diastereotopic groups)
 low-confidence           review   assigned multiplicity calls below the confidence threshold
-minor-signal-assigned    review   a carbon takes a signal the classifier set aside as minor
+minor-signal-assigned    rev/fail a carbon takes a signal the classifier set aside as minor
+                                  (fail when the carbon's prediction is also far from it)
 no-dept90                review   CH and CH3 told apart from shift alone (no DEPT-90)
 carbon-only              review   no edited spectrum: multiplicities unknown
 low-snr                  review   median sample SNR below the threshold
@@ -360,12 +361,29 @@ def judge(
         if s.multiplicity is not None and s.confidence < cfg.low_confidence:
             low_conf.append(a.signal)
         if s.role == "impurity":
+            # a minor line can hold a weak carbon of the sample, but not one whose own
+            # prediction is as far off as a shift-prediction finding: two independent
+            # signs that it belongs to something else
+            far = [
+                classes[k]
+                for k in a.classes
+                if classes[k].predicted_ppm is not None
+                and abs(s.ppm - float(classes[k].predicted_ppm or 0.0))
+                > cfg.prediction_review_sd * (classes[k].prediction_sd or cfg.prediction_sd_ppm)
+            ]
+            also = (
+                f"; {_join([c.label for c in far])} is also predicted far from it"
+                f" ({_join([_ppm(float(c.predicted_ppm or 0.0)) for c in far])})"
+                if far
+                else ""
+            )
             fx.add(
                 "minor-signal-assigned",
-                "review",
+                "fail" if far else "review",
                 f"{_join([classes[k].label for k in a.classes])} is assigned to the weak signal "
                 f"at {_ppm(s.ppm)}, which the classifier took for a minor component "
-                f"({s.reason or 'not in the carbon spectrum'}); confirm it belongs to the sample.",
+                f"({s.reason or 'not in the carbon spectrum'}){also}; confirm it belongs to the "
+                "sample.",
                 [x for k in a.classes for x in classes[k].atoms],
                 (s.ppm,),
             )
