@@ -463,6 +463,37 @@ def test_output_path_that_is_a_folder(
     assert snapshot(tmp_path) == before
 
 
+@pytest.mark.shared
+@pytest.mark.parametrize(
+    ("name", "content", "words"),
+    [
+        ("c.txt", b"", ("c.txt", "no structure")),
+        ("c.txt", b"CCO ethanol\nC1CC broken\n", ("c.txt", "line 2", "position 2")),
+        ("c.txt", b"\xff\xfe\x00\x01", ("c.txt", "cannot read")),
+        # Found by this test: an empty SDF raised RDKit's OSError (a traceback), and a
+        # broken record printed RDKit's own two log lines beside the error.
+        ("c.sdf", b"", ("c.sdf", "empty or unreadable")),
+        ("c.sdf", b"$$$$\n$$$$\n", ("c.sdf", "record 1")),
+    ],
+    ids=["empty-list", "bad-smiles-line", "binary-list", "empty-sdf", "broken-sdf"],
+)
+def test_bad_candidates_file(
+    name: str,
+    content: bytes,
+    words: tuple[str, ...],
+    tmp_path: Path,
+    spectra_dir: Path,
+    capfd: pytest.CaptureFixture[str],
+) -> None:
+    (tmp_path / name).write_bytes(content)
+    argv = ["check", "--carbon", str(spectra_dir / "estragole" / "13c.dx")]
+    argv += ["--candidates", str(tmp_path / name), "--json", str(tmp_path / "out.json")]
+    before = snapshot(tmp_path)
+    code, out, err = run(argv, capfd)
+    assert_bad_input(code, out, err, *words)
+    assert snapshot(tmp_path) == before
+
+
 # ------------------------------------------------------------------ expect
 
 

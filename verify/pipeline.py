@@ -246,7 +246,7 @@ def load_candidates(
 
 
 def _read_candidates_file(path: Path) -> list[Expectation]:
-    from rdkit import Chem
+    from rdkit import Chem, rdBase
 
     from verify.structure import expected_inventory
 
@@ -254,7 +254,16 @@ def _read_candidates_file(path: Path) -> list[Expectation]:
         raise InputFileError(f"candidates file not found: {path}", path=path)
     if path.suffix.lower() in (".sdf", ".sd"):
         out = []
-        for i, mol in enumerate(Chem.SDMolSupplier(str(path), removeHs=False)):
+        try:
+            with rdBase.BlockLogs():  # RDKit's own parse messages would add lines to stderr
+                mols = list(Chem.SDMolSupplier(str(path), removeHs=False))
+        except OSError as exc:  # RDKit refuses an empty or unreadable file this way
+            raise InputFileError(
+                f"cannot read the candidates SDF (empty or unreadable): {exc}", path=path
+            ) from None
+        if not mols:
+            raise StructureError("the candidates file holds no structure", path=path)
+        for i, mol in enumerate(mols):
             if mol is None:
                 raise StructureError(f"record {i + 1} of the SDF cannot be read", path=path)
             name = mol.GetProp("_Name") if mol.HasProp("_Name") else ""
