@@ -494,6 +494,19 @@ def test_bad_candidates_file(
     assert snapshot(tmp_path) == before
 
 
+@pytest.mark.shared
+def test_two_outputs_on_one_file(
+    tmp_path: Path, spectra_dir: Path, capfd: pytest.CaptureFixture[str]
+) -> None:
+    # Found by this test: the HTML silently replaced the JSON just written there.
+    sample = build(tmp_path / "s", spectra_dir / "estragole")
+    target = str(tmp_path / "out.txt")
+    before = snapshot(tmp_path)
+    code, out, err = run(["check", str(sample), "--json", target, "--html", target], capfd)
+    assert_bad_input(code, out, err, "same file")
+    assert snapshot(tmp_path) == before
+
+
 # ------------------------------------------------------------------ expect
 
 

@@ -156,6 +156,9 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
     for target in (args.html, args.json, args.pdf):
         _check_target(target)
+    named = [t for t in (args.html, args.json, args.pdf) if t and t != "-"]
+    if len({Path(t).expanduser().resolve() for t in named}) < len(named):
+        raise UsageError("--html, --json and --pdf name the same file; give each its own")
     if args.pdf:
         from verify.report import find_browser
 
