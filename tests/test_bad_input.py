@@ -3,7 +3,8 @@
 Contract (issues 2, 3, 5 and 6, "Bad input" / "Errors"): bad input exits 2 with exactly one
 line on stderr, ``ErrorName: message``, naming the file (or the SMILES position) and what
 was wrong; never a traceback; nothing on stdout; and no output file (--json/--html/--pdf)
-is created or changed when the run fails.  Exit codes: 0 pass, 1 fail, 2 bad input or usage, 3 review.
+is created or changed when the run fails.  Exit codes: 0 pass, 1 fail, 2 bad input or
+usage, 3 review.
 
 Each case builds a sample folder under ``tmp_path`` from the measured estragole spectra in
 ../shared/data/spectra (cheminfo/nmr-dataset1, MIT licence; see ../shared/data/LICENSES.md)
