@@ -174,3 +174,26 @@ def test_pdf_without_browser_exits_2_and_writes_nothing(
     assert_one_line_error(err)
     assert "Chromium" in err
     assert not js.exists() and not pdf.exists()
+
+
+def test_warnings_show_as_one_line(capsys: pytest.CaptureFixture[str]) -> None:
+    import warnings
+
+    from verify import cli
+    from verify.errors import CtallyWarning
+
+    def doubtful(args: object) -> int:
+        warnings.warn("first part\nsecond part", CtallyWarning, stacklevel=2)
+        return 0
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("always")
+        original = cli._COMMANDS["expect"]
+        cli._COMMANDS["expect"] = doubtful
+        try:
+            code = main(["expect", "CC"])
+        finally:
+            cli._COMMANDS["expect"] = original
+    err = capsys.readouterr().err
+    assert code == 0
+    assert err == "CtallyWarning: first part second part\n"

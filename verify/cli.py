@@ -22,6 +22,7 @@ import argparse
 import json
 import os
 import sys
+import warnings
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any, NoReturn
@@ -251,14 +252,31 @@ def _check_text(result: Any, args: argparse.Namespace) -> str:
 _COMMANDS = {"expect": _cmd_expect, "classify": _cmd_classify, "check": _cmd_check}
 
 
+def _one_line_warning(
+    message: Warning | str,
+    category: type[Warning],
+    filename: str,
+    lineno: int,
+    file: Any = None,
+    line: str | None = None,
+) -> None:
+    """Show a warning as ``WarningName: message`` on one line of stderr."""
+    text = " ".join(str(message).split())
+    sys.stderr.write(f"{category.__name__}: {text}\n")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the ``ctally`` command; returns the exit code (see module docstring)."""
+    shown = warnings.showwarning
+    warnings.showwarning = _one_line_warning
     try:
         args = _parser().parse_args(argv)
         return _COMMANDS[args.command](args)
     except CtallyError as exc:
         sys.stderr.write(f"{type(exc).__name__}: {exc}\n")
         return EXIT_BAD_INPUT
+    finally:
+        warnings.showwarning = shown
 
 
 if __name__ == "__main__":  # pragma: no cover
