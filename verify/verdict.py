@@ -364,7 +364,7 @@ def judge(
             # a minor line can hold a weak carbon of the sample, but not one whose own
             # prediction is as far off as a shift-prediction finding: two independent
             # signs that it belongs to something else
-            far = [
+            off_prediction = [
                 classes[k]
                 for k in a.classes
                 if classes[k].predicted_ppm is not None
@@ -372,14 +372,14 @@ def judge(
                 > cfg.prediction_review_sd * (classes[k].prediction_sd or cfg.prediction_sd_ppm)
             ]
             also = (
-                f"; {_join([c.label for c in far])} is also predicted far from it"
-                f" ({_join([_ppm(float(c.predicted_ppm or 0.0)) for c in far])})"
-                if far
+                f"; {_join([c.label for c in off_prediction])} is also predicted far from it"
+                f" ({_join([_ppm(float(c.predicted_ppm or 0.0)) for c in off_prediction])})"
+                if off_prediction
                 else ""
             )
             fx.add(
                 "minor-signal-assigned",
-                "fail" if far else "review",
+                "fail" if off_prediction else "review",
                 f"{_join([classes[k].label for k in a.classes])} is assigned to the weak signal "
                 f"at {_ppm(s.ppm)}, which the classifier took for a minor component "
                 f"({s.reason or 'not in the carbon spectrum'}){also}; confirm it belongs to the "
