@@ -197,3 +197,27 @@ def test_warnings_show_as_one_line(capsys: pytest.CaptureFixture[str]) -> None:
     err = capsys.readouterr().err
     assert code == 0
     assert err == "CtallyWarning: first part second part\n"
+
+
+def test_native_prints_never_reach_json_on_stdout() -> None:
+    # Native libraries (the HiGHS solver behind scipy's milp) may write to file
+    # descriptor 1 directly; with --json - only the JSON may reach stdout.
+    import subprocess
+    import sys
+
+    code = (
+        "import os, verify.cli as c\n"
+        "orig = c._COMMANDS['expect']\n"
+        "def noisy(a):\n"
+        "    os.write(1, b'native noise\\n')\n"
+        "    return orig(a)\n"
+        "c._COMMANDS['expect'] = noisy\n"
+        "raise SystemExit(c.main(['expect', 'CCO', '--json', '-']))\n"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, timeout=120, check=False
+    )
+    assert done.returncode == 0, done.stderr
+    # Ethanol: one CH3 and one CH2 signal (textbook, from memory).
+    assert json.loads(done.stdout)["signals"] == {"C": 0, "CH": 0, "CH2": 1, "CH3": 1}
+    assert "native noise" in done.stderr

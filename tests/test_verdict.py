@@ -498,3 +498,40 @@ def test_missing_quaternaries_fail_only_when_quaternaries_are_strong() -> None:
     weak = judge(expect(smiles), observe(lost, snr=25.0))
     assert weak.verdict == "review", format_verdict(weak)
     assert any("quaternary signals seen are weak" in f.message for f in weak.findings)
+
+
+def _at_predictions(smiles: str, shift: float, method: str) -> tuple[Expectation, Observation]:
+    from verify.model import Referencing, Signal
+    from verify.predict import predict_shifts
+    from verify.structure import expected_inventory
+
+    exp = predict_shifts(expected_inventory(smiles))
+    signals = tuple(
+        Signal(
+            ppm=c.predicted_ppm + shift,
+            multiplicity=c.multiplicity,
+            confidence=0.95,
+            height=10.0 * c.carbons,
+            snr=80.0,
+        )
+        for c in exp.classes
+    )
+    obs = Observation(
+        signals=signals,
+        experiments=("carbon", "dept90", "dept135"),
+        mode="full",
+        referencing=Referencing(method=method),
+    )
+    return exp, obs
+
+
+def test_unreferenced_axis_drifting_from_predictions_goes_to_review() -> None:
+    # Ethyl benzoate with every shift 4 ppm above its prediction and no solvent line to
+    # reference on: the axis is suspect.  On a solvent-referenced axis, or without the
+    # drift, no such finding (a mis-set reference moves all carbons alike: common practice).
+    exp, drifted = _at_predictions("CCOC(=O)c1ccccc1", 4.0, "none")
+    assert "reference-suspect" in {f.code for f in judge(exp, drifted).findings}
+    exp, level = _at_predictions("CCOC(=O)c1ccccc1", 0.0, "none")
+    assert "reference-suspect" not in {f.code for f in judge(exp, level).findings}
+    exp, referenced = _at_predictions("CCOC(=O)c1ccccc1", 4.0, "solvent")
+    assert "reference-suspect" not in {f.code for f in judge(exp, referenced).findings}

@@ -19,13 +19,14 @@ atomically, so a failed run leaves nothing half-written.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import os
 import sys
 import warnings
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from pathlib import Path
-from typing import Any, NoReturn
+from typing import Any, NoReturn, TextIO
 
 from verify import __version__
 from verify._files import atomic_write_text
@@ -92,15 +93,49 @@ def _dump(data: Any) -> str:
     return json.dumps(data, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 
+#: Where the command's own standard output goes (see :func:`_guard_stdout`).
+_out: TextIO | None = None
+
+
 def _emit(text: str, data: Any | None, json_target: str | None) -> None:
     """Print the summary and write JSON; the summary goes to stderr when JSON takes stdout."""
+    out = _out or sys.stdout
     if not text.endswith("\n"):
         text += "\n"
     if json_target == "-":
         sys.stderr.write(text)
-        sys.stdout.write(_dump(data))
+        out.write(_dump(data))
     else:
-        sys.stdout.write(text)
+        out.write(text)
+    out.flush()
+
+
+@contextlib.contextmanager
+def _guard_stdout() -> Iterator[TextIO]:
+    """Send file descriptor 1 to stderr while the command runs; yield the real stdout.
+
+    Native libraries may print to file descriptor 1 behind Python's back (the HiGHS
+    solver behind :func:`scipy.optimize.milp` does, now and then).  Such lines must never
+    mix into ``--json -`` output, so only the command's own output reaches stdout.
+    Where stdout is not a real file descriptor (tests capturing it), nothing is changed.
+    """
+    try:
+        fd = sys.stdout.fileno()
+        err_fd = sys.stderr.fileno()
+    except (AttributeError, OSError, ValueError):
+        yield sys.stdout
+        return
+    sys.stdout.flush()
+    saved = os.dup(fd)
+    os.dup2(err_fd, fd)
+    real = os.fdopen(os.dup(saved), "w", encoding="utf-8")
+    try:
+        yield real
+    finally:
+        real.close()
+        sys.stdout.flush()
+        os.dup2(saved, fd)
+        os.close(saved)
 
 
 def _check_target(path: str | None) -> None:
@@ -267,15 +302,18 @@ def _one_line_warning(
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the ``ctally`` command; returns the exit code (see module docstring)."""
+    global _out
     shown = warnings.showwarning
     warnings.showwarning = _one_line_warning
     try:
         args = _parser().parse_args(argv)
-        return _COMMANDS[args.command](args)
+        with _guard_stdout() as _out:
+            return _COMMANDS[args.command](args)
     except CtallyError as exc:
         sys.stderr.write(f"{type(exc).__name__}: {exc}\n")
         return EXIT_BAD_INPUT
     finally:
+        _out = None
         warnings.showwarning = shown
 
 

@@ -49,6 +49,8 @@ carbon-only              review   no edited spectrum: multiplicities unknown
 low-snr                  review   median sample SNR below the threshold
 reference-offset         review   the axis needed a correction above 1 ppm
 reference-none           info     the axis was used as stored in the file
+reference-suspect        review   no solvent/TMS line, and the assigned shifts sit off their
+                                  predictions by one common amount above 1 ppm
 phase-inverted           info     an experiment's stored phase was inverted and corrected
 impurity                 info/rev a recognised solvent or impurity (review above a mol %)
 mostly-impurity          fail     impurities amount to most of the sample by peak height
@@ -252,6 +254,16 @@ def judge(
         )
     elif ref.method == "none":
         fx.add("reference-none", "info", "The shift axis was used as stored in the file.")
+    if ref.method in ("none", "file"):
+        drift = _axis_drift([(sigs[j].ppm, classes[k]) for k, j in sig_of_class.items()], cfg)
+        if drift is not None:
+            fx.add(
+                "reference-suspect",
+                "review",
+                f"No solvent or TMS signal was found to check the shift axis, and the assigned "
+                f"shifts sit {drift:+.1f} ppm from their predictions as a whole: the axis may "
+                "be mis-referenced; reference it and check again.",
+            )
     for role in obs.inverted:
         fx.add(
             "phase-inverted",
@@ -618,6 +630,46 @@ def judge(
         impurities=impurities,
         score=round(-cost, 3),
     )
+
+
+def _axis_drift(pairs: Sequence[tuple[float, CarbonClass]], cfg: VerdictConfig) -> float | None:
+    """Estimate the common offset of observed shifts from their predictions.
+
+    Each assigned class with a confident prediction (SD at most
+    ``cfg.drift_max_prediction_sd``) gives one residual, observed − predicted.  Their
+    median is the axis drift; it counts when it exceeds
+    ``cfg.reference_offset_review_ppm`` and ``cfg.drift_significance`` times its standard
+    error (1.2533 · 1.4826 · MAD / √n, the standard error of a median under normal
+    errors), with at least ``cfg.drift_min_carbons`` residuals.
+
+    Returns
+    -------
+    float or None
+        The drift in ppm, or None when there is none to report.
+
+    References
+    ----------
+    .. [1] F. R. Hampel, J. Am. Stat. Assoc. 1974, 69, 383 (MAD as a robust scale).
+
+    """
+    residuals = [
+        ppm - cls.predicted_ppm
+        for ppm, cls in pairs
+        if cls.predicted_ppm is not None
+        and cls.prediction_sd is not None
+        and cls.prediction_sd <= cfg.drift_max_prediction_sd
+    ]
+    if len(residuals) < cfg.drift_min_carbons:
+        return None
+    centre = median(residuals)
+    spread = 1.4826 * median(abs(r - centre) for r in residuals)
+    error = 1.2533 * max(spread, cfg.min_prediction_sd) / len(residuals) ** 0.5
+    if (
+        abs(centre) > cfg.reference_offset_review_ppm
+        and abs(centre) > cfg.drift_significance * error
+    ):
+        return float(centre)
+    return None
 
 
 def _implausible_coincidence(
