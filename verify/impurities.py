@@ -71,6 +71,7 @@ SOLVENTS: tuple[str, ...] = (
 
 _SOURCE = "Gottlieb 1997 / Fulmer 2010, Table 2 ({column} column; values from memory)"
 
+
 def canonical_solvent(name: str | None) -> str | None:
     """Canonical NMR-solvent name for a spelling as files and users write it.
 
