@@ -244,8 +244,6 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
 
 def _check_json(result: Any) -> dict[str, Any]:
-    from verify.classify import observation_to_dict
-    from verify.structure import expectation_to_dict
     from verify.verdict import verdict_to_dict
 
     v = result.verdict
@@ -253,9 +251,7 @@ def _check_json(result: Any) -> dict[str, Any]:
         "sample": result.sample.name if result.sample else None,
         "metadata": dict(result.sample.metadata) if result.sample else {},
     }
-    data.update(verdict_to_dict(v))
-    data["expected"] = expectation_to_dict(v.expectation)
-    data["observed"] = observation_to_dict(result.observation)
+    data.update(verdict_to_dict(v))  # verdict, findings, assignment, expected, observed …
     if len(result.verdicts) > 1:
         data["candidates"] = [
             {

@@ -28,7 +28,6 @@ from __future__ import annotations
 
 import functools
 import hashlib
-import importlib
 import math
 import os
 import shutil
@@ -58,6 +57,7 @@ from verify.draw import (
 from verify.draw import structure_svg as _structure_svg
 from verify.errors import InputFileError, ToolMissingError, UsageError
 from verify.model import MULTIPLICITIES, Sample, Signal, Spectrum, Verdict
+from verify.verdict import CAUTION
 
 __all__ = [
     "CAUTION",
@@ -72,23 +72,6 @@ __all__ = [
     "write_pdf",
 ]
 
-
-def _caution() -> str:
-    try:
-        stage = importlib.import_module("verify.verdict")
-    except ImportError:
-        stage = None
-    text = getattr(stage, "CAUTION", None)
-    if isinstance(text, str) and text.strip():
-        return text
-    return (
-        "This result supports, and does not replace, the release decision of a qualified "
-        "person made under the laboratory's own procedures."
-    )
-
-
-#: The sentence every report carries about what the verdict is for.
-CAUTION: str = _caution()
 
 #: The verdict in words: (headline, sentence).
 VERDICT_WORDS: Mapping[str, tuple[str, str]] = {

@@ -83,6 +83,7 @@ from statistics import median
 from typing import Any
 
 from verify._verdict_config import VerdictConfig
+from verify.classify import observation_to_dict
 from verify.impurities import canonical_solvent, identify, load_table
 from verify.match import agreement, assign, overlap_kind, range_distance
 from verify.model import (
@@ -97,6 +98,7 @@ from verify.model import (
     Observation,
     Verdict,
 )
+from verify.structure import expectation_to_dict
 
 __all__ = [
     "CAUTION",
@@ -898,8 +900,9 @@ def verdict_to_dict(v: Verdict) -> dict[str, Any]:
         Keys ``verdict``, ``caution``, ``score``, ``assignment`` (peak in ppm, signal
         index, atoms, class indices and labels, multiplicity, note), ``missing`` (class
         labels with no signal), ``findings`` (code, severity, message, atoms, peaks) and
-        ``impurities`` (name, peaks in ppm, mol_percent, source); plus ``expected`` and
-        ``observed`` when the structure and classify stages provide their converters.
+        ``impurities`` (name, peaks in ppm, mol_percent, source); plus ``expected`` (as
+        :func:`verify.structure.expectation_to_dict`) and ``observed`` (as
+        :func:`verify.classify.observation_to_dict`).
 
     """
     sigs = v.observation.signals
@@ -930,15 +933,8 @@ def verdict_to_dict(v: Verdict) -> dict[str, Any]:
             for imp in v.impurities
         ],
     }
-    for key, module, func, arg in (
-        ("expected", "verify.structure", "expectation_to_dict", v.expectation),
-        ("observed", "verify.classify", "observation_to_dict", v.observation),
-    ):
-        try:
-            mod = __import__(module, fromlist=[func])
-            out[key] = getattr(mod, func)(arg)
-        except (ImportError, AttributeError):
-            pass
+    out["expected"] = expectation_to_dict(v.expectation)
+    out["observed"] = observation_to_dict(v.observation)
     return out
 
 
