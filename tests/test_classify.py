@@ -287,7 +287,6 @@ _OBSERVED: dict[tuple[str, str], tuple] = {}
 
 def _observe(spectra_dir: Path, name: str, toml: str = "sample.toml"):
     """Read, process, pick and classify one shared sample (cached: the stages are slow)."""
-    pytest.importorskip("verify.peaks", reason="the peak picker (verify/peaks.py) is not there")
     from verify.pipeline import observe
     from verify.sample import load_sample
 

@@ -178,7 +178,7 @@ EXPECTED = [
 
 @functools.cache
 def _carbon(path):
-    readers = pytest.importorskip("verify.readers")
+    from verify import readers
     from verify.process import prepare
 
     with warnings.catch_warnings():
@@ -273,7 +273,8 @@ def test_fluorine_decoupled_spectrum_gives_each_carbon_once(spectra_dir):
     ],
 )
 def test_dept135_signs(spectra_dir, rel, negative):
-    readers = pytest.importorskip("verify.readers")
+    from verify import readers
+
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         s = readers.read_any(spectra_dir / rel, role="dept135")

@@ -189,7 +189,7 @@ CDCL3_CARBON = [
 
 @functools.cache
 def _read(path):
-    readers = pytest.importorskip("verify.readers")
+    from verify import readers
     from verify.process import prepare
 
     with warnings.catch_warnings():

@@ -18,6 +18,7 @@ from pathlib import Path
 
 import pytest
 
+from verify import predict, structure
 from verify.model import Expectation, Observation, Referencing, Signal
 from verify.verdict import (
     CAUTION,
@@ -28,9 +29,6 @@ from verify.verdict import (
     rank,
     verdict_to_dict,
 )
-
-structure = pytest.importorskip("verify.structure")
-predict = pytest.importorskip("verify.predict")
 
 FULL = ("carbon", "dept90", "dept135")
 
@@ -308,10 +306,8 @@ def _through_spectra(
 
     `impurity` carbons are added at `amount` (mole fraction relative to the sample).
     """
-    simulate = pytest.importorskip("verify.simulate")
-    peaks = pytest.importorskip("verify.peaks")
-    classify = pytest.importorskip("verify.classify")
-    reference = pytest.importorskip("verify.reference")
+    from verify import classify, peaks, reference, simulate
+
     synth = [simulate.SyntheticCarbon(ppm=p, multiplicity=m, carbons=n) for p, m, n in carbons]
     synth += [
         simulate.SyntheticCarbon(ppm=p, multiplicity=m, carbons=n, amount=amount)
@@ -410,8 +406,9 @@ MEASURED = {
 @functools.cache
 def _measured(folder: str) -> tuple[str, Observation]:
     """(proposed SMILES, observation) of a shared sample through the real pipeline."""
-    pipeline = pytest.importorskip("verify.pipeline")
-    sample_mod = pytest.importorskip("verify.sample")
+    from verify import pipeline
+    from verify import sample as sample_mod
+
     sample = sample_mod.load_sample(Path(folder) / "sample.toml")
     return sample.structure, pipeline.observe(sample)
 
